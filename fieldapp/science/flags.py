@@ -1,0 +1,31 @@
+"""The flag record shared by every plausibility rule.
+
+A flag never blocks a save: it travels with the reading. Each has a stable
+snake_case ``code`` (tests and other tools rely on it), a ``severity``
+("info", "warning" or "error"), one plain ``message`` a scout understands in
+the sun, and an ``action`` saying what to do about it.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, asdict, field
+
+SEVERITIES = ("info", "warning", "error")
+
+
+@dataclass(frozen=True)
+class Flag:
+    code: str
+    severity: str
+    message: str
+    action: str = ""
+    data: dict = field(default_factory=dict)
+
+    def __post_init__(self):
+        if self.severity not in SEVERITIES:
+            raise ValueError(f"unknown severity {self.severity!r}")
+
+    def as_dict(self) -> dict:
+        d = asdict(self)
+        if not d["data"]:
+            d.pop("data")
+        return d
