@@ -1,0 +1,656 @@
+"""Sample kinds, dilution ratios and estimation of the saturated-paste ECe.
+
+Crop salt-tolerance data are stated as ECe, the electrical conductivity of the
+extract of a saturated soil paste at 25 °C. Field and small laboratories often
+measure something else: a 1:1, 1:2 or 1:5 soil:water extract, a substrate test
+(saturated media extract, 1:2 by volume, pour-through leachate), irrigation
+water or a nutrient solution. This module says which of those can be turned
+into a soil ECe and how, with the expected uncertainty of each route.
+
+Every estimate here is an approximation. A laboratory saturated-paste analysis
+remains the reference before costly decisions (reclamation, replanting).
+
+Routes (see :func:`estimate_ece`):
+
+* ``paste``        the reading already is ECe.
+* ``sp_dilution``  ECe ≈ EC(1:N) · 100·N / SP (ideal dilution; needs SP or texture).
+* ``regression:<name>``  a published empirical line for one ratio (data table
+  ``fieldapp/data/ece_regressions.csv``).
+
+Tables: ``textures.csv`` (saturation percentage by USDA texture class),
+``ece_regressions.csv``, ``substrate_ranges.csv`` (interpretation of substrate
+tests). Each row carries its source.
+"""
+from __future__ import annotations
+
+import difflib
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import InputError
+from ..data import load_table
+
+# --------------------------------------------------------------------------
+# Sample kinds
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class SampleKind:
+    """What was put in the meter's cup.
+
+    ``is_soil``: the reading can be turned into a soil ECe.
+    ``takes_ratio``: the sample was diluted by a stated ratio (1:N).
+    ``ratio_basis``: "mass" (soil:water by weight), "volume" or None.
+    """
+    key: str
+    label: str
+    description: str
+    is_soil: bool
+    takes_ratio: bool
+    default_ratio: float | None
+    ratio_basis: str | None
+    interpretation_note: str
+
+
+SAMPLE_KINDS: dict[str, SampleKind] = {k.key: k for k in (
+    SampleKind(
+        "paste", "Saturated paste extract (ECe)",
+        "Soil wetted to saturation, extract drawn off and measured.",
+        True, False, None, None,
+        "This is ECe itself, the basis of crop salt-tolerance tables."),
+    SampleKind(
+        "extract", "Soil:water extract 1:N (by mass)",
+        "Dry soil shaken with N parts of water by weight (1:1, 1:2, 1:2.5, 1:5).",
+        True, True, 1.0, "mass",
+        "More dilute than the paste; converted to an ECe estimate by saturation "
+        "percentage or a published regression for that ratio."),
+    SampleKind(
+        "water", "Irrigation or source water (ECw)",
+        "Water from a well, canal, pond or tap used for irrigation.",
+        False, False, None, None,
+        "Judged against water-quality guidelines and used for the leaching requirement."),
+    SampleKind(
+        "feed", "Nutrient solution (feed)",
+        "Fertigation or hydroponic solution as delivered to the plants.",
+        False, False, None, None,
+        "Compared with the crop's target feed EC; not a soil value."),
+    SampleKind(
+        "leachate", "Pour-through or container leachate",
+        "Solution collected from the bottom of a container after watering.",
+        False, False, None, None,
+        "Interpreted with pour-through ranges for substrates; not a soil value."),
+    SampleKind(
+        "drain", "Drainage or runoff water",
+        "Water leaving a field, bed or bench through drains or as runoff.",
+        False, False, None, None,
+        "Shows how much salt leaves the root zone; compare with the water applied."),
+    SampleKind(
+        "sme", "Saturated media extract (substrate)",
+        "Potting substrate wetted to saturation and the solution drawn off.",
+        False, False, None, None,
+        "Interpreted with saturated-media-extract ranges; substrates are not turned "
+        "into a soil ECe."),
+    SampleKind(
+        "media", "Substrate:water extract 1:N (by volume)",
+        "Substrate mixed with N volumes of water, usually 1:2.",
+        False, True, 2.0, "volume",
+        "Interpreted with 1:2 substrate ranges; substrates are not turned into a soil ECe."),
+)}
+
+# --------------------------------------------------------------------------
+# Dilution ratio
+# --------------------------------------------------------------------------
+
+MAX_RATIO_N = 1000.0
+_RATIO_RE = re.compile(r"^\s*([0-9]*[.,]?[0-9]+)\s*(?:[:/∶]|to)\s*([0-9]*[.,]?[0-9]+)\s*$",
+                       re.IGNORECASE)
+_NUM_RE = re.compile(r"^\s*([0-9]*[.,]?[0-9]+)\s*$")
+
+
+def _to_float(s: str) -> float:
+    return float(s.replace(",", "."))
+
+
+def parse_ratio(text_or_number) -> float:
+    """Water parts N per 1 part soil (or substrate) from what was typed.
+
+    Accepts ``"1:5"``, ``"1 : 2.5"``, ``"1/5"``, ``"1 to 5"``, ``"5"``, ``5`` and
+    ``"1:2,5"`` (decimal comma). A general ``a:b`` with a ≤ b gives N = b/a.
+
+    ``"5:1"`` (more soil than water) is almost always a swapped ratio and is
+    refused with a message suggesting ``1:5``. N must be finite, > 0 and
+    ≤ 1000; unusual but possible values such as 1:100 pass (a plausibility
+    check flags them later).
+
+    Returns
+    -------
+    float
+        N in "1:N".
+
+    Raises
+    ------
+    InputError
+        field ``"ratio"``, with a message that says what to type instead.
+    """
+    hint = "Type the soil:water ratio as 1:N, for example 1:1, 1:2, 1:2.5 or 1:5."
+    if text_or_number is None or (isinstance(text_or_number, str) and not text_or_number.strip()):
+        raise InputError("The dilution ratio is missing. " + hint, "ratio")
+    if isinstance(text_or_number, bool):
+        raise InputError("The dilution ratio must be a number. " + hint, "ratio")
+    if isinstance(text_or_number, (int, float, np.integer, np.floating)):
+        n = float(text_or_number)
+    elif isinstance(text_or_number, str):
+        s = text_or_number.strip()
+        m = _RATIO_RE.match(s)
+        if m:
+            a, b = _to_float(m.group(1)), _to_float(m.group(2))
+            if a <= 0 or b <= 0:
+                raise InputError(f"{s!r} has a zero part. " + hint, "ratio")
+            if a > b:
+                swapped = a / b
+                raise InputError(
+                    f"{s!r} means more soil than water, which is almost certainly "
+                    f"swapped: type 1:{swapped:g} (soil first, then water).", "ratio")
+            n = b / a
+        else:
+            m = _NUM_RE.match(s)
+            if not m:
+                raise InputError(f"{s!r} is not a ratio. " + hint, "ratio")
+            n = _to_float(m.group(1))
+    else:
+        raise InputError("The dilution ratio must be text like 1:5 or a number. " + hint,
+                         "ratio")
+    if not math.isfinite(n) or n <= 0:
+        raise InputError("The water part of the ratio must be a positive number. " + hint,
+                         "ratio")
+    if n > MAX_RATIO_N:
+        raise InputError(f"1:{n:g} is beyond any soil or substrate extract "
+                         f"(at most 1:{MAX_RATIO_N:g}). " + hint, "ratio")
+    return n
+
+
+# --------------------------------------------------------------------------
+# Texture classes and saturation percentage
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Texture:
+    """A USDA texture class with a typical saturation percentage SP (g water
+    per 100 g oven-dry soil in a saturated paste) and its usual range."""
+    name: str
+    sp_pct: float
+    sp_low_pct: float
+    sp_high_pct: float
+    source: str
+
+
+def _norm(name: str) -> str:
+    s = str(name).strip().lower().replace("_", " ").replace("-", " ")
+    s = re.sub(r"[^a-z0-9. ]+", " ", s)
+    return re.sub(r"\s+", " ", s).strip()
+
+
+TEXTURES: dict[str, Texture] = {
+    r["name"]: Texture(r["name"], float(r["sp_pct"]), float(r["sp_low_pct"]),
+                       float(r["sp_high_pct"]), r["source"])
+    for r in load_table("textures")
+}
+_TEXTURE_KEYS = {_norm(k).replace(" ", ""): k for k in TEXTURES}
+
+
+def find_texture(name) -> Texture:
+    """The :class:`Texture` for a class name; case, spaces, ``_`` and ``-`` are ignored."""
+    if name is None or not str(name).strip():
+        raise InputError("Choose a soil texture class, e.g. " + ", ".join(TEXTURES) + ".",
+                         "texture")
+    key = _norm(name).replace(" ", "")
+    if key in _TEXTURE_KEYS:
+        return TEXTURES[_TEXTURE_KEYS[key]]
+    close = difflib.get_close_matches(_norm(name), list(TEXTURES), n=3, cutoff=0.6)
+    msg = f"Unknown soil texture {str(name)!r}."
+    if close:
+        msg += " Did you mean " + " or ".join(close) + "?"
+    msg += " Known textures: " + ", ".join(TEXTURES) + "."
+    raise InputError(msg, "texture")
+
+
+def sp_for_texture(name) -> float:
+    """Typical saturation percentage SP (%) of a USDA texture class.
+
+    A class-average value; real soils vary (see ``Texture.sp_low_pct`` and
+    ``sp_high_pct``; organic matter, swelling clays and gypsum move SP a lot).
+    A measured SP always beats this. Source per row in ``textures.csv``.
+    """
+    return find_texture(name).sp_pct
+
+
+# --------------------------------------------------------------------------
+# ECe estimation: ideal dilution
+# --------------------------------------------------------------------------
+
+#: Expected relative uncertainty of the SP-dilution route (±, %): common
+#: practice puts it at 20-30 %; we report the middle.
+SP_DILUTION_UNCERTAINTY_PCT = 25.0
+SP_DILUTION_UNCERTAINTY_SOURCE = "common practice (±20-30 % for the dilution estimate)"
+
+#: Reproducibility of a laboratory saturated-paste analysis: "generally
+#: reproducible within 8 %" (UC Davis Analytical Laboratory, saturated paste
+#: method note).
+PASTE_UNCERTAINTY_PCT = 8.0
+PASTE_UNCERTAINTY_SOURCE = "UC Davis ANLAB saturated paste method note (reproducible within 8 %)"
+
+ESTIMATE_CAUTION = ("An estimate, not a laboratory ECe: confirm with a saturated-paste "
+                    "analysis and local extension or licensed advice before costly decisions.")
+
+
+def _as_ec(ec_dS_m, field: str = "ec") -> np.ndarray:
+    try:
+        x = np.asarray(ec_dS_m, dtype=np.float64)
+    except (TypeError, ValueError):
+        raise InputError("EC must be a number in dS/m.", field) from None
+    if np.any(x[np.isfinite(x)] < 0):
+        raise InputError("EC cannot be negative; type the number the meter shows.", field)
+    if np.any(np.isinf(x)):
+        raise InputError("EC must be a finite number.", field)
+    return x
+
+
+def _check_sp(sp_pct) -> float:
+    try:
+        sp = float(sp_pct)
+    except (TypeError, ValueError):
+        raise InputError("Saturation percentage must be a number, e.g. 40.", "sp") from None
+    if not math.isfinite(sp) or sp <= 0:
+        raise InputError("Saturation percentage must be a positive number of % "
+                         "(g water per 100 g dry soil), e.g. 40.", "sp")
+    if sp > 1000:
+        raise InputError("A saturation percentage above 1000 % is not a soil; check the digits.",
+                         "sp")
+    return sp
+
+
+def ece_sp_dilution(ec_1N_dS_m, n, sp_pct) -> np.ndarray:
+    """ECe from a 1:N soil:water extract by ideal dilution.
+
+    .. math:: EC_e \\approx EC_{1:N} \\cdot \\frac{100\\,N}{SP}
+
+    Parameters
+    ----------
+    ec_1N_dS_m : array_like
+        EC of the 1:N extract at 25 °C, dS/m.
+    n : float
+        Water parts per 1 part dry soil by mass (1:N).
+    sp_pct : float
+        Saturation percentage, g water per 100 g oven-dry soil.
+
+    Returns
+    -------
+    numpy.ndarray
+        ECe estimate, dS/m.
+
+    Notes
+    -----
+    Assumes the salts dissolve completely at both water contents and that EC
+    is proportional to concentration. Both fail in practice: gypsum and other
+    sparingly soluble salts dissolve further in the more dilute extract (the
+    estimate runs high in gypsiferous soils), and EC per unit concentration
+    rises on dilution, so measured ECe is usually below the ideal value
+    (compare Slavich and Petterson 1993, f = 2.46 + 3.03/θSP against the ideal
+    5/θSP for 1:5). Expected uncertainty ±20-30 % (common practice).
+    Valid for mineral soils, N between about 1 and 5, SP 10-150 %.
+
+    References
+    ----------
+    Richards, L.A. (ed.) 1954. Diagnosis and improvement of saline and alkali
+    soils. USDA Agriculture Handbook 60 (saturation percentage, saturation
+    extract). Rhoades, J.D., Chanduvi, F., Lesch, S. 1999. Soil salinity
+    assessment. FAO Irrigation and Drainage Paper 57. Dilution arithmetic:
+    common practice.
+    """
+    ec = _as_ec(ec_1N_dS_m)
+    n = parse_ratio(n)
+    sp = _check_sp(sp_pct)
+    return ec * (100.0 * n / sp)
+
+
+# --------------------------------------------------------------------------
+# ECe estimation: published regressions
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Regression:
+    """A published empirical relation between EC(1:N) and ECe.
+
+    ``form`` is "linear" (ECe = a·EC + b) or "sp_factor"
+    (ECe = (a + b/θSP)·EC with θSP = SP/100, Slavich and Petterson 1993).
+    ``uncertainty_pct`` is the paper's reported error when stated; otherwise
+    see :meth:`expected_uncertainty`.
+    """
+    name: str
+    ratio_n: float
+    form: str
+    a: float
+    b: float
+    authors: str
+    year: int | None
+    soils: str
+    n_samples: int | None
+    r2: float | None
+    uncertainty_pct: float | None
+    default_for_ratio: bool
+    source: str
+
+    @property
+    def label(self) -> str:
+        yr = f" {self.year}" if self.year else ""
+        return f"{self.authors}{yr}, 1:{self.ratio_n:g} ({self.soils})"
+
+    def expected_uncertainty(self) -> tuple[float | None, str]:
+        """(± %, basis). Reported error when the source states one; else a rough
+        proxy 100·sqrt(1 − r²) labelled as such; else (None, "not reported")."""
+        if self.uncertainty_pct is not None:
+            return self.uncertainty_pct, "reported by the source"
+        if self.r2 is not None:
+            return (round(100.0 * math.sqrt(max(0.0, 1.0 - self.r2)), 1),
+                    "rough proxy derived from r² as 100·sqrt(1 − r²); not a prediction interval")
+        return None, "not reported by the source"
+
+
+def _opt_float(s: str) -> float | None:
+    return float(s) if s not in ("", None) else None
+
+
+def _opt_int(s: str) -> int | None:
+    return int(float(s)) if s not in ("", None) else None
+
+
+REGRESSIONS: dict[str, Regression] = {
+    r["name"]: Regression(
+        name=r["name"], ratio_n=float(r["ratio_n"]), form=r["form"],
+        a=float(r["a"]), b=float(r["b"]), authors=r["authors"], year=_opt_int(r["year"]),
+        soils=r["soils"], n_samples=_opt_int(r["n_samples"]), r2=_opt_float(r["r2"]),
+        uncertainty_pct=_opt_float(r["uncertainty_pct"]),
+        default_for_ratio=r["default_for_ratio"].lower() in ("yes", "true", "1"),
+        source=r["source"])
+    for r in load_table("ece_regressions")
+}
+for _r in REGRESSIONS.values():
+    if _r.form not in ("linear", "sp_factor"):
+        raise RuntimeError(f"ece_regressions.csv: unknown form {_r.form!r} for {_r.name}")
+
+
+def _same_ratio(a: float, b: float, tol: float = 0.01) -> bool:
+    return abs(a - b) <= tol * max(a, b)
+
+
+def regressions_for_ratio(n) -> list[Regression]:
+    """Published regressions whose ratio is within 1 % of 1:N (default first)."""
+    n = parse_ratio(n)
+    found = [r for r in REGRESSIONS.values() if _same_ratio(r.ratio_n, n)]
+    return sorted(found, key=lambda r: (not r.default_for_ratio, r.name))
+
+
+def default_regression(n) -> Regression | None:
+    """The regression used for 1:N when neither SP nor texture is known."""
+    for r in regressions_for_ratio(n):
+        if r.default_for_ratio:
+            return r
+    return None
+
+
+def find_regression(name) -> Regression:
+    """A regression by name; a leading ``regression:`` is accepted."""
+    key = str(name or "").strip()
+    if key.lower().startswith("regression:"):
+        key = key.split(":", 1)[1].strip()
+    if key in REGRESSIONS:
+        return REGRESSIONS[key]
+    low = {k.lower(): k for k in REGRESSIONS}
+    if key.lower() in low:
+        return REGRESSIONS[low[key.lower()]]
+    raise InputError(f"Unknown ECe method {str(name)!r}; use one of: "
+                     + ", ".join(ECE_METHODS) + ".", "method")
+
+
+def ece_regression(ec_dS_m, name, sp_pct=None) -> np.ndarray:
+    """ECe from EC(1:N) by a published regression.
+
+    .. math:: EC_e = a\\,EC_{1:N} + b \\qquad\\text{(linear)}
+
+    .. math:: EC_e = (a + b/\\theta_{SP})\\,EC_{1:5} \\qquad\\text{(sp\\_factor,
+              Slavich and Petterson 1993; } \\theta_{SP} = SP/100\\text{ kg/kg)}
+
+    Parameters
+    ----------
+    ec_dS_m : array_like
+        EC of the extract at 25 °C, dS/m, at the regression's own ratio.
+    name : str
+        Key of :data:`REGRESSIONS` (``regression:`` prefix allowed).
+    sp_pct : float, optional
+        Saturation percentage, needed by the ``sp_factor`` form only.
+
+    Returns
+    -------
+    numpy.ndarray
+        ECe, dS/m. A negative intercept can give values below zero for very
+        dilute extracts; those are returned as 0 (below the fitted range).
+
+    Notes
+    -----
+    Each line was fitted on a regional set of soils (see ``soils`` and
+    ``source``); outside that population the error can be far larger than
+    the fit statistics suggest.
+    """
+    reg = find_regression(name)
+    ec = _as_ec(ec_dS_m)
+    if reg.form == "linear":
+        out = reg.a * ec + reg.b
+    else:
+        if sp_pct is None:
+            raise InputError(f"{reg.name} needs the saturation percentage (or a texture) "
+                             "of the soil; type SP in %, e.g. 40.", "sp")
+        theta = _check_sp(sp_pct) / 100.0
+        out = (reg.a + reg.b / theta) * ec
+    return np.where(np.isnan(out), np.nan, np.maximum(out, 0.0))
+
+
+#: Names offered by a method picker, with a short label.
+ECE_METHODS: dict[str, str] = {
+    "paste": "Saturated paste: the reading is ECe",
+    "sp_dilution": "Dilution by saturation percentage (SP or texture)",
+    **{f"regression:{k}": r.label for k, r in REGRESSIONS.items()},
+}
+
+# --------------------------------------------------------------------------
+# ECe estimation: routing
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class EceEstimate:
+    """Result of :func:`estimate_ece`.
+
+    ``ece_dS_m`` is NaN where ECe is not meaningful (waters, feeds, substrates).
+    ``method`` names the route ("paste", "sp_dilution",
+    "sp_dilution:texture:<name>", "regression:<name>") or None.
+    ``uncertainty_pct`` is the expected ± relative uncertainty of the route
+    (None when unknown or not applicable); ``uncertainty_basis`` says where it
+    comes from. ``note`` is one or two plain sentences for the screen.
+    """
+    ece_dS_m: np.ndarray
+    method: str | None
+    uncertainty_pct: float | None
+    note: str
+    uncertainty_basis: str | None = None
+    sp_pct: float | None = None
+
+
+def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None,
+                 method=None) -> EceEstimate:
+    """Saturated-paste ECe equivalent of a reading, by the best available route.
+
+    Routing rules:
+
+    * ``paste``: ECe = EC25 (method "paste"; uncertainty of the laboratory
+      method only).
+    * ``extract`` (1:N by mass):
+
+      1. ``method`` names a regression -> use it; its ratio must match
+         ``ratio_n`` within 1 % (when ``ratio_n`` is omitted the regression's
+         own ratio is taken).
+      2. else ``sp_pct`` given -> ideal dilution with that SP.
+      3. else ``texture`` given -> ideal dilution with the class-typical SP
+         (method "sp_dilution:texture:<name>").
+      4. else the default published regression for that ratio, if any.
+      5. else :class:`InputError` (field "sp") asking for SP or texture.
+
+      ``method="sp_dilution"`` forces route 2/3.
+    * ``water``, ``feed``, ``leachate``, ``drain``, ``sme``, ``media``: no soil
+      ECe (NaN, method None); substrates and solutions are interpreted on
+      their own scales.
+
+    Parameters
+    ----------
+    ec25_dS_m : array_like
+        Reading compensated to 25 °C, dS/m.
+    sample : str
+        Key of :data:`SAMPLE_KINDS`.
+    ratio_n : float or str, optional
+        N of a 1:N extract (anything :func:`parse_ratio` accepts).
+    sp_pct : float, optional
+        Measured saturation percentage, %.
+    texture : str, optional
+        USDA texture class (see :data:`TEXTURES`).
+    method : str, optional
+        "paste", "sp_dilution" or "regression:<name>" / "<name>".
+
+    Returns
+    -------
+    EceEstimate
+    """
+    ec = _as_ec(ec25_dS_m)
+    kind = SAMPLE_KINDS.get(str(sample or "").strip().lower())
+    if kind is None:
+        raise InputError("Unknown sample kind; use one of: " + ", ".join(SAMPLE_KINDS) + ".",
+                         "sample")
+    meth = (str(method).strip() or None) if method is not None else None
+
+    if not kind.is_soil:
+        return EceEstimate(np.full(ec.shape, np.nan), None, None,
+                           f"{kind.label}: {kind.interpretation_note}")
+
+    if kind.key == "paste":
+        if meth not in (None, "paste"):
+            raise InputError("A saturated paste extract already is ECe; leave the ECe "
+                             "method empty or choose 'paste'.", "method")
+        return EceEstimate(ec.copy(), "paste", PASTE_UNCERTAINTY_PCT,
+                           "Saturated paste extract: the reading is ECe.",
+                           PASTE_UNCERTAINTY_SOURCE)
+
+    # kind == extract
+    n = parse_ratio(ratio_n) if ratio_n is not None else None
+    if meth == "paste":
+        raise InputError("'paste' is for saturated paste extracts; for a 1:N extract "
+                         "choose sp_dilution or a regression.", "method")
+
+    if meth is not None and meth != "sp_dilution" and not meth.startswith("sp_dilution:"):
+        reg = find_regression(meth)
+        if n is None:
+            n = reg.ratio_n
+        elif not _same_ratio(reg.ratio_n, n):
+            raise InputError(
+                f"{reg.name} is for 1:{reg.ratio_n:g} extracts but the sample is 1:{n:g}; "
+                f"choose a method for 1:{n:g} or correct the ratio.", "method")
+        sp_for_reg = None
+        if reg.form == "sp_factor":
+            if sp_pct is not None:
+                sp_for_reg = _check_sp(sp_pct)
+            elif texture:
+                sp_for_reg = sp_for_texture(texture)
+        ece = ece_regression(ec, reg.name, sp_pct=sp_for_reg)
+        unc, basis = reg.expected_uncertainty()
+        return EceEstimate(ece, f"regression:{reg.name}", unc,
+                           f"Estimated with {reg.label}. {ESTIMATE_CAUTION}", basis, sp_for_reg)
+
+    if n is None:
+        raise InputError("A soil:water extract needs its ratio; type it as 1:N, "
+                         "e.g. 1:1, 1:2 or 1:5.", "ratio")
+
+    if meth is not None and meth.startswith("sp_dilution:texture:") and texture is None:
+        texture = meth.split(":", 2)[2]
+
+    if sp_pct is not None:
+        sp = _check_sp(sp_pct)
+        return EceEstimate(ece_sp_dilution(ec, n, sp), "sp_dilution",
+                           SP_DILUTION_UNCERTAINTY_PCT,
+                           f"Dilution estimate from 1:{n:g} with SP {sp:g} %. {ESTIMATE_CAUTION}",
+                           SP_DILUTION_UNCERTAINTY_SOURCE, sp)
+    if texture:
+        tex = find_texture(texture)
+        return EceEstimate(ece_sp_dilution(ec, n, tex.sp_pct),
+                           f"sp_dilution:texture:{tex.name}", SP_DILUTION_UNCERTAINTY_PCT,
+                           f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
+                           f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %); "
+                           f"a measured SP is better. {ESTIMATE_CAUTION}",
+                           SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
+                           tex.sp_pct)
+    if meth is not None:  # sp_dilution asked for, but nothing to dilute with
+        raise InputError("The dilution method needs the saturation percentage (SP, %) or "
+                         "the soil texture; type one of them.", "sp")
+    reg = default_regression(n)
+    if reg is not None:
+        ece = ece_regression(ec, reg.name)
+        unc, basis = reg.expected_uncertainty()
+        return EceEstimate(ece, f"regression:{reg.name}", unc,
+                           f"Estimated with {reg.label}; adding SP or texture allows a "
+                           f"dilution estimate. {ESTIMATE_CAUTION}", basis)
+    raise InputError(f"No published conversion is stored for 1:{n:g} extracts: type the "
+                     "saturation percentage (SP, %) or choose the soil texture.", "sp")
+
+
+# --------------------------------------------------------------------------
+# Substrate and solution interpretation ranges
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class SubstrateRange:
+    """One interpretation band of a substrate test (dS/m, lo inclusive)."""
+    method: str
+    level: str
+    lo_dS_m: float
+    hi_dS_m: float  # math.inf for the open top band
+    source: str
+
+
+_SUBSTRATE_ROWS = [
+    SubstrateRange(r["method"], r["level"], float(r["lo_dS_m"]),
+                   float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"])
+    for r in load_table("substrate_ranges")
+]
+SUBSTRATE_METHODS: tuple[str, ...] = tuple(dict.fromkeys(r.method for r in _SUBSTRATE_ROWS))
+#: Which table applies to which sample kind.
+SUBSTRATE_METHOD_FOR_SAMPLE = {"sme": "sme", "media": "media_1to2", "leachate": "pour_through"}
+
+
+def substrate_ranges(method) -> list[SubstrateRange]:
+    """Interpretation bands (very_low ... extreme) for a substrate test method.
+
+    ``method`` is one of :data:`SUBSTRATE_METHODS` (``sme``, ``media_1to2``,
+    ``pour_through``) or a sample kind mapped by
+    :data:`SUBSTRATE_METHOD_FOR_SAMPLE`. The bands are general greenhouse
+    guidance; crop-specific targets differ.
+    """
+    key = _norm(method or "").replace(" ", "_")
+    key = SUBSTRATE_METHOD_FOR_SAMPLE.get(key, key)
+    rows = [r for r in _SUBSTRATE_ROWS if r.method == key]
+    if not rows:
+        raise InputError(f"No interpretation ranges for {str(method)!r}; known: "
+                         + ", ".join(SUBSTRATE_METHODS) + ".", "method")
+    return rows
