@@ -1,0 +1,52 @@
+"""fieldapp: an offline field log for EC readings.
+
+``create_app(config=None)`` is the Flask application factory; the science
+lives in ``fieldapp.science`` and knows nothing of Flask or SQL.
+"""
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+__version__ = "0.1.0"
+
+#: Top-level folders of the repository (the design card keeps them outside the package).
+REPO_ROOT = Path(__file__).resolve().parent.parent
+
+
+def default_data_dir() -> Path:
+    """The user's data directory: $XDG_DATA_HOME/fieldapp or ~/.local/share/fieldapp."""
+    base = os.environ.get("XDG_DATA_HOME") or os.path.join(Path.home(), ".local", "share")
+    return Path(base) / "fieldapp"
+
+
+def create_app(config: dict | None = None):
+    """Build the Flask application.
+
+    ``config`` may set DATA_DIR (folder holding the SQLite file), TESTING, and
+    anything Flask knows. The database is opened and migrated here, so a
+    corrupt or foreign file stops the start with a clear message.
+    """
+    from flask import Flask
+
+    from . import store
+    from .web import api, pages, register_common
+
+    app = Flask(__name__, template_folder=str(REPO_ROOT / "templates"),
+                static_folder=str(REPO_ROOT / "static"), static_url_path="/static")
+    app.config.update(
+        DATA_DIR=str(default_data_dir()),
+        MAX_CONTENT_LENGTH=8 * 1024 * 1024,
+        JSON_SORT_KEYS=False,
+    )
+    if config:
+        app.config.update(config)
+    data_dir = Path(app.config["DATA_DIR"])
+    data_dir.mkdir(parents=True, exist_ok=True)
+    app.config["DATABASE"] = str(data_dir / store.DB_NAME)
+    store.connect(app.config["DATABASE"]).close()  # migrate now, fail early
+
+    register_common(app)
+    app.register_blueprint(pages.bp)
+    app.register_blueprint(api.bp)
+    return app

@@ -1,0 +1,208 @@
+"""CSV export and import of the log.
+
+Export: RFC 4180 (comma, double quotes, CRLF), UTF-8 with a byte-order mark
+so spreadsheets show µ correctly, one row per reading version, numbers in
+plain decimal notation. Rows are streamed from the database, never collected.
+Text cells that a spreadsheet would run as a formula are prefixed with an
+apostrophe (OWASP CSV injection guidance); numeric columns stay numbers.
+
+Import: a file made by export (the header must match); rows whose uuid is
+already in the log are skipped, so logs from several tablets merge without
+doubles. The whole file is checked first and imported in one transaction:
+either every new row lands or none does.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from typing import IO, Iterator
+
+from . import __version__, store
+from .science import InputError
+
+BOM = "\ufeff"
+
+COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", "compensated",
+           "ratio", "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa", "meter",
+           "replicate_group", "note", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
+           "psi_s_method", "flags", "status", "void_reason", "voided_at", "supersedes_uuid",
+           "uuid", "visited_by", "recorded_at", "app_version")
+NUMERIC = {"depth_cm", "value", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa",
+           "ec25_dS_m", "ece_dS_m", "psi_s_MPa"}
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def plain_number(x) -> str:
+    """A float in plain decimal notation, shortest exact repr (never 1e-05)."""
+    if x is None:
+        return ""
+    x = float(x)
+    if math.isnan(x) or math.isinf(x):
+        return ""
+    s = repr(x)
+    if "e" in s or "E" in s:
+        s = f"{x:.20f}".rstrip("0").rstrip(".")
+        if float(s) != x:  # very small numbers: keep every significant digit
+            s = format(x, ".40f").rstrip("0").rstrip(".")
+    if s.endswith(".0"):
+        s = s[:-2]
+    return "0" if s == "-0" else s
+
+
+def neutralize(text) -> str:
+    """Prefix text a spreadsheet would treat as a formula with an apostrophe."""
+    s = "" if text is None else str(text)
+    return "'" + s if s.startswith(_FORMULA_START) else s
+
+
+def unneutralize(text: str) -> str:
+    return text[1:] if text.startswith("'") and text[1:].startswith(_FORMULA_START) else text
+
+
+def row_cells(row) -> list[str]:
+    cells = []
+    for c in COLUMNS:
+        v = row[c]
+        if c in NUMERIC:
+            cells.append(plain_number(v))
+        elif c == "compensated":
+            cells.append("yes" if v else "no")
+        else:
+            cells.append(neutralize(v))
+    return cells
+
+
+def export_lines(conn, site_id: int | None = None) -> Iterator[str]:
+    """Yield the CSV text piece by piece: BOM + header, then one line per row."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\r\n")
+    w.writerow(COLUMNS)
+    yield BOM + buf.getvalue()
+    for row in store.iter_readings(conn, site_id=site_id):
+        buf.seek(0)
+        buf.truncate()
+        w.writerow(row_cells(row))
+        yield buf.getvalue()
+
+
+def export(conn, out: IO[str], site_id: int | None = None) -> None:
+    for piece in export_lines(conn, site_id):
+        out.write(piece)
+
+
+class ImportError_(InputError):
+    pass
+
+
+def _num(cell: str, line: int, col: str):
+    if cell == "":
+        return None
+    try:
+        x = float(cell)
+    except ValueError:
+        raise ImportError_(f"line {line}: {col} {cell!r} is not a number.", col) from None
+    if not math.isfinite(x):
+        raise ImportError_(f"line {line}: {col} must be a finite number.", col)
+    return x
+
+
+def read_export(src: IO[str]) -> list[dict]:
+    """Parse and check a whole export file; raise ImportError_ on the first bad line."""
+    text = src.read()
+    if text.startswith(BOM):
+        text = text[1:]
+    reader = csv.reader(io.StringIO(text, newline=""))
+    try:
+        header = next(reader)
+    except StopIteration:
+        raise ImportError_("The file is empty; choose a fieldapp log export.", "file") from None
+    except csv.Error as e:
+        raise ImportError_(f"This is not a CSV file ({e}).", "file") from None
+    missing = [c for c in COLUMNS if c not in header]
+    if missing:
+        raise ImportError_("This is not a fieldapp log export: missing columns "
+                           + ", ".join(missing[:6]) + (" …" if len(missing) > 6 else "")
+                           + ". Nothing was imported.", "file")
+    idx = {c: header.index(c) for c in COLUMNS}
+    rows = []
+    try:
+        for line, cells in enumerate(reader, start=2):
+            if not cells or cells == [""]:
+                continue
+            if len(cells) != len(header):
+                raise ImportError_(f"line {line}: {len(cells)} cells, the header has "
+                                   f"{len(header)}. Nothing was imported.", "file")
+            r = {}
+            for c in COLUMNS:
+                cell = cells[idx[c]]
+                r[c] = _num(cell, line, c) if c in NUMERIC else unneutralize(cell)
+            if r["value"] is None or not r["unit"] or not r["uuid"] or not r["site"]:
+                raise ImportError_(f"line {line}: site, value, unit and uuid are required.",
+                                   "file")
+            if r["compensated"] not in ("yes", "no"):
+                raise ImportError_(f"line {line}: compensated must be yes or no.", "file")
+            if r["status"] not in ("current", "corrected", "void"):
+                raise ImportError_(f"line {line}: unknown status {r['status']!r}.", "file")
+            r["_line"] = line
+            rows.append(r)
+    except csv.Error as e:
+        raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
+                           "file") from None
+    return rows
+
+
+def import_rows(conn, rows: list[dict]) -> dict:
+    """Merge rows into the log in one transaction. Returns counts."""
+    from .records import build_record
+    added = skipped = voids = 0
+    with store.transaction(conn):
+        for r in rows:
+            existing = store.get_reading(conn, r["uuid"])
+            if existing is None:
+                payload = {"uuid": r["uuid"], "site": r["site"], "sample": r["sample"],
+                           "value": r["value"], "unit": r["unit"], "temp_c": r["temp_c"],
+                           "compensated": r["compensated"] == "yes", "ratio": r["ratio"],
+                           "sp": r["sp_pct"], "texture": r["texture"],
+                           "tds_factor": r["tds_factor"], "theta_g_pct": r["theta_g_pct"],
+                           "matric_MPa": r["matric_MPa"], "depth_cm": r["depth_cm"],
+                           "meter": r["meter"], "replicate_group": r["replicate_group"],
+                           "note": r["note"], "taken_at": r["taken_at"],
+                           "visited_by": r["visited_by"]}
+                try:
+                    rec = build_record(payload)
+                except (InputError, store.StoreError) as e:
+                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was imported.",
+                                       getattr(e, "field", None)) from None
+                # What was computed and recorded where the reading was taken is kept
+                # as it was exported, so a merged log shows the same numbers.
+                for c in ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
+                          "flags", "recorded_at", "app_version"):
+                    rec[c] = r[c] if r[c] != "" else None
+                rec["flags"] = r["flags"]
+                rec["app_version"] = r["app_version"] or __version__
+                rec["supersedes_uuid"] = r["supersedes_uuid"] or None
+                rec["result_json"] = json.dumps(
+                    {**json.loads(rec["result_json"]), "imported": True},
+                    ensure_ascii=False, separators=(",", ":"))
+                try:
+                    store.insert_reading(conn, rec)
+                except store.StoreError as e:
+                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was imported.",
+                                       e.field) from None
+                added += 1
+            else:
+                skipped += 1
+            if r["status"] == "void":
+                row = store.get_reading(conn, r["uuid"])
+                if row["status"] == "current":
+                    conn.execute("INSERT INTO voids (reading_id, reason, voided_at) "
+                                 "VALUES (?,?,?)", (row["id"], r["void_reason"] or "void",
+                                                    r["voided_at"] or store.utc_now()))
+                    voids += 1
+    return {"added": added, "skipped": skipped, "voided": voids}
+
+
+def import_csv(conn, src: IO[str]) -> dict:
+    return import_rows(conn, read_export(src))

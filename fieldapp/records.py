@@ -1,0 +1,129 @@
+"""From a submitted reading (API body, imported row) to a stored record.
+
+Validation and conversion happen here, once, for the web API and the command
+line alike: the preview and the stored row come from the same call to
+``science.convert.convert_reading``.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import json
+import re
+import uuid as uuidlib
+
+from . import __version__, store
+from .science import InputError
+from .science.convert import convert_reading, parse_number
+
+NOTE_MAX = 2000
+SHORT_TEXT_MAX = 120
+_UUID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{7,63}$")
+
+
+def parse_taken_at(text) -> str:
+    """ISO 8601 timestamp with its UTC offset. A time without offset takes this
+    machine's offset; no time at all means now."""
+    if text in (None, ""):
+        return dt.datetime.now().astimezone().isoformat(timespec="seconds")
+    try:
+        t = dt.datetime.fromisoformat(str(text).strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise InputError("The time must look like 2026-05-14T09:30 (ISO 8601).",
+                         "taken_at") from None
+    if t.tzinfo is None:
+        t = t.astimezone()
+    if not (1990 <= t.year <= 2200):
+        raise InputError("The date is out of range; check the tablet's clock.", "taken_at")
+    return t.isoformat(timespec="seconds")
+
+
+def _short_text(d: dict, key: str, limit: int = SHORT_TEXT_MAX) -> str | None:
+    v = d.get(key)
+    if v is None:
+        return None
+    v = " ".join(str(v).split())
+    if len(v) > limit:
+        raise InputError(f"{key} is at most {limit} characters.", key)
+    return v or None
+
+
+def preview(payload: dict, site: dict | None = None) -> dict:
+    """The conversion result for a reading, with site defaults applied."""
+    return convert_reading(with_site_defaults(payload, site))
+
+
+def with_site_defaults(payload: dict, site) -> dict:
+    """A site's SP, texture and crop apply when the reading does not give its own."""
+    d = dict(payload)
+    if site is not None:
+        if d.get("sp") in (None, "") and d.get("texture") in (None, ""):
+            if site["sp_pct"] is not None:
+                d["sp"] = site["sp_pct"]
+            elif site["texture"]:
+                d["texture"] = site["texture"]
+        if d.get("crop") in (None, "") and site["crop"]:
+            d["crop"] = site["crop"]
+    return d
+
+
+def build_record(payload: dict, site=None) -> dict:
+    """Validate a submitted reading and compute everything; a dict for
+    store.insert_reading. Raises InputError or StoreError naming the field."""
+    if not isinstance(payload, dict):
+        raise InputError("Send the reading as a JSON object.", "body")
+    rid = str(payload.get("uuid") or "").strip() or str(uuidlib.uuid4())
+    if not _UUID_RE.match(rid):
+        raise InputError("uuid must be 8 to 64 letters, digits or -_.:", "uuid")
+    site_name = store.clean_site_name(payload.get("site"))
+    d = with_site_defaults(payload, site)
+    result = convert_reading(d)
+    inp = result["input"]
+    depth = parse_number(payload.get("depth_cm"), "depth_cm", "a depth")
+    if depth is not None and not (0 <= depth <= 500):
+        raise InputError("Depth must be between 0 and 500 cm.", "depth_cm")
+    note = str(payload.get("note") or "").strip()
+    if len(note) > NOTE_MAX:
+        raise InputError(f"The note is at most {NOTE_MAX} characters.", "note")
+    flags = result["flags"]
+    return {
+        "uuid": rid,
+        "site": site_name,
+        "sample": inp["sample"],
+        "depth_cm": depth,
+        "value": inp["value"],
+        "unit": inp["unit"],
+        "temp_c": inp["temp_c"],
+        "compensated": inp["compensated"],
+        "ratio": inp["ratio"],
+        "sp_pct": inp["sp"],
+        "texture": inp["texture"],
+        "tds_factor": inp["tds_factor"],
+        "theta_g_pct": inp["theta_g_pct"],
+        "matric_MPa": inp["matric_MPa"],
+        "meter": _short_text(payload, "meter"),
+        "replicate_group": _short_text(payload, "replicate_group"),
+        "note": note,
+        "taken_at": parse_taken_at(payload.get("taken_at")),
+        "visited_by": _short_text(payload, "visited_by") or "",
+        "supersedes_uuid": _short_text(payload, "supersedes"),
+        "ec25_dS_m": result["ec25_dS_m"],
+        "ece_dS_m": result["ece_dS_m"],
+        "ece_method": result["ece_method"],
+        "psi_s_MPa": result["psi_s_MPa"],
+        "psi_s_method": result["psi_s_method"],
+        "flags": ";".join(f["code"] for f in flags),
+        "result_json": json.dumps(result, ensure_ascii=False, separators=(",", ":")),
+        "app_version": __version__,
+    }
+
+
+def save_reading(conn, payload: dict):
+    """Validate, convert and store; returns (row, created)."""
+    site = None
+    if isinstance(payload, dict) and payload.get("site"):
+        try:
+            site = store.get_site(conn, store.clean_site_name(payload["site"]))
+        except store.StoreError:
+            site = None
+    rec = build_record(payload, site)
+    return store.insert_reading(conn, rec)

@@ -1,0 +1,437 @@
+"""The one path from a reading as the meter displayed it to every derived number.
+
+The command line (`convert`, `convert-csv`), the live preview and the stored
+row all call :func:`convert_batch`; :func:`convert_reading` is the same path
+for a single reading and returns a JSON-ready dict. Nothing here touches disk
+or the network.
+
+Steps, in order (each a documented function in its own module):
+
+1. unit as displayed -> EC in dS/m at the sample temperature   (units)
+2. sample temperature -> EC at 25 °C                           (temperature)
+3. sample kind, ratio, SP or texture -> ECe                    (extracts)
+4. EC at 25 °C -> solute potential by every route              (osmotic)
+5. ECe -> soil solution at field capacity / current moisture   (osmotic)
+6. crop -> relative yield, leaching requirement, classes       (tolerance)
+7. plausibility flags                                          (checks)
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import InputError, checks, extracts, osmotic, temperature, tolerance, units
+
+#: Shown wherever results are shown: the estimates can drive costly decisions.
+CAUTIONS = (
+    "These figures are estimates from a field meter and published approximations, "
+    "not a laboratory analysis.",
+    "Before costly decisions (reclamation, leaching, changing the crop or the feed) "
+    "confirm with a laboratory analysis and ask your local extension service or a "
+    "licensed advisor; local codes and rules come first.",
+    "Handle calibration solutions and soil samples with gloves and clean hands; keep "
+    "standards away from food and children.",
+)
+
+#: Sample kinds whose own solution is what the plant roots see (or its nearest proxy).
+_SOLUTION_KINDS = {"water", "feed", "leachate", "drain", "sme"}
+
+#: The longest list convert_batch accepts in one call (memory guard for the web API).
+MAX_BATCH = 2_000_000
+
+
+@dataclass
+class Batch:
+    """Column arrays of readings, all the same length. Strings are object arrays."""
+
+    value: np.ndarray
+    unit: np.ndarray
+    sample: np.ndarray
+    ratio_n: np.ndarray
+    temp_c: np.ndarray
+    compensated: np.ndarray
+    sp_pct: np.ndarray
+    texture: np.ndarray
+    tds_factor: np.ndarray
+    theta_g_pct: np.ndarray
+    matric_MPa: np.ndarray
+    ece_method: np.ndarray
+    crop: np.ndarray
+
+    def __len__(self) -> int:
+        return int(self.value.shape[0])
+
+
+def _col(x, n, dtype, default):
+    if x is None:
+        return np.full(n, default, dtype=dtype)
+    arr = np.asarray(x, dtype=dtype)
+    if arr.ndim == 0:
+        return np.full(n, arr.item() if dtype is not object else x, dtype=dtype)
+    if arr.shape[0] != n:
+        raise InputError(f"column has {arr.shape[0]} values, expected {n}")
+    return arr
+
+
+def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
+               compensated=False, sp_pct=None, texture=None, tds_factor=None,
+               theta_g_pct=None, matric_MPa=None, ece_method=None, crop=None) -> Batch:
+    """Broadcast scalars and columns into a :class:`Batch` of equal-length arrays."""
+    value = np.atleast_1d(np.asarray(value, dtype=float))
+    n = value.shape[0]
+    if n > MAX_BATCH:
+        raise InputError(f"at most {MAX_BATCH} readings at a time")
+    return Batch(
+        value=value,
+        unit=_col(unit, n, object, None),
+        sample=_col(sample, n, object, "paste"),
+        ratio_n=_col(ratio_n, n, float, np.nan),
+        temp_c=_col(temp_c, n, float, np.nan),
+        compensated=_col(compensated, n, bool, False),
+        sp_pct=_col(sp_pct, n, float, np.nan),
+        texture=_col(texture, n, object, None),
+        tds_factor=_col(tds_factor, n, float, np.nan),
+        theta_g_pct=_col(theta_g_pct, n, float, np.nan),
+        matric_MPa=_col(matric_MPa, n, float, np.nan),
+        ece_method=_col(ece_method, n, object, None),
+        crop=_col(crop, n, object, None),
+    )
+
+
+def _groups(*cols):
+    """Yield (key tuple, row index array) for each distinct combination of columns.
+
+    Readings in a file share a handful of units, kinds and methods, so each
+    formula runs once per group on numpy arrays instead of once per row.
+    """
+    if len(cols[0]) == 0:
+        return
+    keys = list(zip(*[c.tolist() for c in cols]))
+    index: dict = {}
+    for i, k in enumerate(keys):
+        index.setdefault(k, []).append(i)
+    for k, rows in index.items():
+        yield k, np.asarray(rows, dtype=np.intp)
+
+
+def _nan_to_none(x):
+    return None if x is None or (isinstance(x, float) and math.isnan(x)) else x
+
+
+def convert_batch(b: Batch) -> dict[str, np.ndarray]:
+    """Convert every reading of a batch; returns a dict of equal-length columns.
+
+    Raises :class:`InputError` for input that cannot be a reading (unknown unit,
+    TDS without factor, unknown texture or crop, regression for another ratio).
+    Doubtful values never raise: they come back with flags.
+    """
+    n = len(b)
+    if n and not np.all(np.isfinite(b.value)):
+        raise InputError("The reading must be a number (no NaN or infinity).", "value")
+    if n and np.any(b.value < 0):
+        raise InputError("EC cannot be negative; type the number the meter shows.", "value")
+
+    # 1. units -> EC in dS/m at sample temperature
+    ec_dS_m = np.empty(n)
+    unit_canonical = np.empty(n, dtype=object)
+    unit_kind = np.empty(n, dtype=object)
+    unit_note = np.empty(n, dtype=object)
+    for (u, f), rows in _groups(b.unit, b.tds_factor):
+        pu = units.parse_unit(u if u is not None else "")
+        factor = None if (f is None or math.isnan(f)) else f
+        ec_dS_m[rows] = units.to_ec_dS_m(b.value[rows], pu, tds_factor=factor)
+        unit_canonical[rows] = pu.canonical
+        unit_kind[rows] = pu.kind
+        unit_note[rows] = pu.note
+
+    # 2. temperature -> EC at 25 °C
+    ec25 = temperature.to_25(ec_dS_m, b.temp_c, b.compensated)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        comp_factor = np.where(ec_dS_m > 0, ec25 / ec_dS_m, np.nan)
+
+    # 3. ECe
+    ece = np.full(n, np.nan)
+    ece_method = np.full(n, None, dtype=object)
+    ece_unc = np.full(n, np.nan)
+    for (kind, r, sp, tex, meth), rows in _groups(b.sample, b.ratio_n, b.sp_pct,
+                                                  b.texture, b.ece_method):
+        if kind not in extracts.SAMPLE_KINDS:
+            raise InputError(
+                f"Unknown sample kind {kind!r}; use one of: "
+                + ", ".join(extracts.SAMPLE_KINDS), "sample")
+        est = extracts.estimate_ece(
+            ec25[rows], kind,
+            ratio_n=None if math.isnan(r) else r,
+            sp_pct=None if math.isnan(sp) else sp,
+            texture=tex or None, method=meth or None)
+        ece[rows] = est.ece_dS_m
+        ece_method[rows] = est.method
+        ece_unc[rows] = np.nan if est.uncertainty_pct is None else est.uncertainty_pct
+
+    # 4. solute potential of the solution that matters: ECe for soil, the
+    #    sample itself for waters, feeds, leachates and saturated media extracts.
+    t_soln = np.where(np.isnan(b.temp_c), 25.0, b.temp_c)
+    is_soil = np.isin(b.sample, ["paste", "extract"])
+    is_solution = np.isin(b.sample, list(_SOLUTION_KINDS))
+    basis = np.where(is_soil, ece, np.where(is_solution, ec25, np.nan))
+    routes = osmotic.psi_s_all_routes(basis, t_soln)
+    psi_default = routes[osmotic.DEFAULT_ROUTE]
+    fallback = "handbook60"
+    use_fb = np.isnan(psi_default) & ~np.isnan(routes[fallback])
+    psi_s = np.where(use_fb, routes[fallback], psi_default)
+    psi_method = np.where(np.isnan(psi_s), None,
+                          np.where(use_fb, fallback, osmotic.DEFAULT_ROUTE)).astype(object)
+
+    # 5. soil solution (soil kinds only)
+    ec_fc = np.where(is_soil, osmotic.soil_solution_ec_at_field_capacity(ece), np.nan)
+    psi_fc = np.where(is_soil, _psi_best(ec_fc, t_soln), np.nan)
+    sp_used = b.sp_pct.copy()
+    for (tex,), rows in _groups(b.texture):
+        if tex:
+            sp_used[rows] = np.where(np.isnan(sp_used[rows]),
+                                     extracts.sp_for_texture(tex), sp_used[rows])
+    ec_sw = np.where(is_soil, osmotic.soil_solution_ec(ece, sp_used, b.theta_g_pct), np.nan)
+    psi_sw = np.where(is_soil, _psi_best(ec_sw, t_soln), np.nan)
+    psi_root = np.where(np.isnan(psi_sw), psi_fc, psi_sw)
+    psi_total = osmotic.total_water_potential(psi_root, b.matric_MPa)
+    margin = osmotic.margin_to_wilting_point(psi_total)
+
+    # 6. crop and classes
+    rel_yield = np.full(n, np.nan)
+    lr = np.full(n, np.nan)
+    crop_name = np.full(n, None, dtype=object)
+    for (c,), rows in _groups(b.crop):
+        if not c:
+            continue
+        crop = tolerance.find_crop(c)
+        crop_name[rows] = crop.name
+        soil_rows = rows[is_soil[rows]]
+        rel_yield[soil_rows] = tolerance.relative_yield_pct(ece[soil_rows], crop)
+        water_rows = rows[b.sample[rows] == "water"]
+        lr[water_rows] = tolerance.leaching_requirement(ec25[water_rows], crop=crop)
+    soil_class = np.full(n, None, dtype=object)
+    if is_soil.any():
+        soil_class[is_soil] = tolerance.soil_salinity_class(ece[is_soil])
+    water_hazard = np.full(n, None, dtype=object)
+    is_water = b.sample == "water"
+    if is_water.any():
+        water_hazard[is_water] = tolerance.water_salinity_hazard(ec25[is_water])
+
+    out = {
+        "value": b.value,
+        "unit": b.unit,
+        "unit_canonical": unit_canonical,
+        "unit_kind": unit_kind,
+        "unit_note": unit_note,
+        "sample": b.sample,
+        "ratio_n": b.ratio_n,
+        "temp_c": b.temp_c,
+        "compensated": b.compensated,
+        "ec_dS_m": ec_dS_m,
+        "ec25_dS_m": ec25,
+        "compensation_factor": comp_factor,
+        "ece_dS_m": ece,
+        "ece_method": ece_method,
+        "ece_uncertainty_pct": ece_unc,
+        "psi_s_MPa": psi_s,
+        "psi_s_method": psi_method,
+        **{f"psi_s_{k}_MPa": v for k, v in routes.items()},
+        "tds_mg_L": units.tds_mg_L_from_ec(ec25),
+        "cations_meq_L": units.cations_meq_L_from_ec(ec25),
+        "ec_fc_dS_m": ec_fc,
+        "psi_s_fc_MPa": psi_fc,
+        "ec_sw_dS_m": ec_sw,
+        "psi_s_sw_MPa": psi_sw,
+        "matric_MPa": b.matric_MPa,
+        "psi_total_MPa": psi_total,
+        "margin_to_pwp_MPa": margin,
+        "crop": crop_name,
+        "relative_yield_pct": rel_yield,
+        "leaching_requirement": lr,
+        "soil_class": soil_class,
+        "water_hazard": water_hazard,
+    }
+    out["flags"] = checks.reading_flags(out)
+    return out
+
+
+def _psi_best(ec25_dS_m, temp_c):
+    """Solute potential by the default route, Handbook 60 where it is out of range."""
+    routes = osmotic.psi_s_all_routes(ec25_dS_m, temp_c)
+    best = routes[osmotic.DEFAULT_ROUTE]
+    return np.where(np.isnan(best), routes["handbook60"], best)
+
+
+# --------------------------------------------------------------------------
+# Single readings: validation of typed input and a JSON-ready result.
+
+def parse_number(text, field: str, what: str = "a number") -> float | None:
+    """Parse a typed number; '' or None is None. A decimal comma is accepted
+    only when it is the only separator ("1,5" -> 1.5); "1,500" is refused as
+    ambiguous rather than guessed."""
+    if text is None:
+        return None
+    if isinstance(text, bool):
+        raise InputError(f"Type {what} for {field}.", field)
+    if isinstance(text, (int, float)):
+        x = float(text)
+    else:
+        s = str(text).strip().replace("\u2212", "-")
+        if s == "":
+            return None
+        if "," in s:
+            if "." in s or s.count(",") > 1 or len(s.split(",")[1]) == 3:
+                raise InputError(
+                    f"{s!r} is ambiguous: use a point as the decimal separator "
+                    f"and no thousands separator (e.g. 1500 or 1.5).", field)
+            s = s.replace(",", ".")
+        if not all(c in "0123456789.+-eE" for c in s):
+            raise InputError(f"{s!r} is not a number; type {what} in digits, e.g. 1.25.", field)
+        try:
+            x = float(s)
+        except ValueError:
+            raise InputError(f"{s!r} is not a number; type {what} in digits, e.g. 1.25.",
+                             field) from None
+    if not math.isfinite(x):
+        raise InputError(f"Type a finite number for {field}.", field)
+    return x
+
+
+def parse_bool(x) -> bool:
+    if isinstance(x, bool):
+        return x
+    if x is None:
+        return False
+    s = str(x).strip().lower()
+    if s in ("1", "true", "yes", "y", "on", "atc"):
+        return True
+    if s in ("", "0", "false", "no", "n", "off"):
+        return False
+    raise InputError(f"{x!r} is not yes or no.", "compensated")
+
+
+def validate_reading(d: dict) -> dict:
+    """Check typed fields of one reading; return clean keyword arguments for
+    :func:`make_batch`. Raises InputError naming the field."""
+    value = parse_number(d.get("value"), "value", "a reading")
+    if value is None:
+        raise InputError("Type the number the meter shows.", "value")
+    if value < 0:
+        raise InputError("EC cannot be negative; type the number the meter shows.", "value")
+    if value > 1e7:
+        raise InputError("That number is too large for any EC meter; check the digits.", "value")
+    unit = (d.get("unit") or "").strip()
+    if not unit:
+        raise InputError("Choose the unit the meter displays, e.g. µS/cm or mS/cm.", "unit")
+    units.parse_unit(unit)
+    sample = (d.get("sample") or "paste").strip().lower()
+    if sample not in extracts.SAMPLE_KINDS:
+        raise InputError("Unknown sample kind; use one of: "
+                         + ", ".join(extracts.SAMPLE_KINDS), "sample")
+    ratio = d.get("ratio")
+    ratio_n = None
+    if ratio not in (None, ""):
+        ratio_n = extracts.parse_ratio(ratio)
+    temp_c = parse_number(d.get("temp_c"), "temp_c", "a temperature")
+    if temp_c is not None:
+        temperature.check_temp_c(temp_c)
+    sp = parse_number(d.get("sp"), "sp", "a saturation percentage")
+    if sp is not None and not (5 <= sp <= 400):
+        raise InputError("Saturation percentage must be between 5 and 400 %.", "sp")
+    texture = (d.get("texture") or "").strip() or None
+    if texture:
+        extracts.sp_for_texture(texture)
+    tds_factor = parse_number(d.get("tds_factor"), "tds_factor", "a factor")
+    theta = parse_number(d.get("theta_g_pct"), "theta_g_pct", "a water content")
+    if theta is not None and not (1 <= theta <= 400):
+        raise InputError("Gravimetric water content must be between 1 and 400 %.", "theta_g_pct")
+    matric = parse_number(d.get("matric_MPa"), "matric_MPa", "a matric potential")
+    if matric is not None:
+        if matric > 0:
+            matric = -matric  # a tensiometer shows suction; the potential is negative
+        if matric < -10:
+            raise InputError("Matric potential must be between 0 and −10 MPa.", "matric_MPa")
+    crop = (d.get("crop") or "").strip() or None
+    if crop:
+        crop = tolerance.find_crop(crop).name
+    method = (d.get("ece_method") or "").strip() or None
+    return dict(value=value, unit=unit, sample=sample, ratio_n=ratio_n, temp_c=temp_c,
+                compensated=parse_bool(d.get("compensated")), sp_pct=sp, texture=texture,
+                tds_factor=tds_factor, theta_g_pct=theta, matric_MPa=matric,
+                ece_method=method, crop=crop)
+
+
+def _num(x, digits=6):
+    x = float(x)
+    if math.isnan(x) or math.isinf(x):
+        return None
+    return float(f"{x:.{digits}g}")
+
+
+def convert_reading(d: dict) -> dict:
+    """Validate and convert one reading; the JSON shape of `convert --json`,
+    `POST /api/preview` and the stored row."""
+    kw = validate_reading(d)
+    out = convert_batch(make_batch(**kw))
+    row = {k: v[0] for k, v in out.items()}
+    crop = row["crop"]
+    result = {
+        "input": {
+            "value": kw["value"], "unit": kw["unit"], "sample": kw["sample"],
+            "ratio": None if kw["ratio_n"] is None else f"1:{kw['ratio_n']:g}",
+            "temp_c": kw["temp_c"], "compensated": kw["compensated"],
+            "sp": kw["sp_pct"], "texture": kw["texture"], "tds_factor": kw["tds_factor"],
+            "theta_g_pct": kw["theta_g_pct"], "matric_MPa": kw["matric_MPa"],
+            "crop": crop, "ece_method": kw["ece_method"],
+        },
+        "unit_canonical": row["unit_canonical"],
+        "unit_note": row["unit_note"],
+        "ec_dS_m": _num(row["ec_dS_m"]),
+        "ec25_dS_m": _num(row["ec25_dS_m"]),
+        "ec25_uS_cm": _num(row["ec25_dS_m"] * 1000.0),
+        "compensation_factor": _num(row["compensation_factor"], 4),
+        "ece_dS_m": _num(row["ece_dS_m"]),
+        "ece_method": row["ece_method"],
+        "ece_uncertainty_pct": _num(row["ece_uncertainty_pct"], 3),
+        "psi_s_MPa": _num(row["psi_s_MPa"], 4),
+        "psi_s_method": row["psi_s_method"],
+        "psi_s_by_method": {k: _num(row[f"psi_s_{k}_MPa"], 4) for k in osmotic.PSI_S_ROUTES},
+        "tds_mg_L": _num(row["tds_mg_L"], 4),
+        "cations_meq_L": _num(row["cations_meq_L"], 4),
+        "soil_solution": None,
+        "soil_class": row["soil_class"],
+        "water_hazard": row["water_hazard"],
+        "flags": [f.as_dict() for f in row["flags"]],
+        "cautions": list(CAUTIONS),
+    }
+    if kw["sample"] in ("paste", "extract"):
+        result["soil_solution"] = {
+            "ec_fc_dS_m": _num(row["ec_fc_dS_m"]),
+            "psi_s_fc_MPa": _num(row["psi_s_fc_MPa"], 4),
+            "ec_sw_dS_m": _num(row["ec_sw_dS_m"]),
+            "psi_s_sw_MPa": _num(row["psi_s_sw_MPa"], 4),
+            "matric_MPa": _num(row["matric_MPa"], 4),
+            "psi_total_MPa": _num(row["psi_total_MPa"], 4),
+            "margin_to_pwp_MPa": _num(row["margin_to_pwp_MPa"], 4),
+            "field_capacity_MPa": osmotic.FIELD_CAPACITY_MPa,
+            "wilting_point_MPa": osmotic.PERMANENT_WILTING_POINT_MPa,
+        }
+    if crop:
+        c = tolerance.find_crop(crop)
+        result["crop"] = {
+            "name": c.name,
+            "threshold_dS_m": c.threshold_dS_m,
+            "slope_pct_per_dS_m": c.slope_pct_per_dS_m,
+            "ece_at_yield_dS_m": {str(p): _num(tolerance.ece_at_yield(c, p), 3)
+                                  for p in (100, 90, 75, 50)},
+            "source": c.source,
+        }
+        if kw["sample"] in ("paste", "extract"):
+            result["relative_yield_pct"] = _num(row["relative_yield_pct"], 4)
+        if kw["sample"] == "water":
+            lr = float(row["leaching_requirement"])
+            result["leaching_requirement"] = None if math.isnan(lr) else (
+                _num(lr, 4) if math.isfinite(lr) else None)
+    return result

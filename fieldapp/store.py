@@ -1,0 +1,341 @@
+"""SQLite storage: schema, migrations, queries. The only module that speaks SQL.
+
+The database is one file in WAL mode with foreign keys on and
+``synchronous=FULL``, so a save that was acknowledged survives a crash or a
+dead battery. Every write runs in an explicit transaction. Readings are
+append-only (triggers refuse UPDATE and DELETE); a correction is a new row
+pointing at the one it replaces, a void is a row in ``voids``.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import json
+import sqlite3
+from importlib import resources
+from pathlib import Path
+from typing import Iterator
+
+DB_NAME = "fieldapp.sqlite3"
+SITE_NAME_MAX = 120
+
+#: Columns of a stored reading that come from the person (as entered).
+INPUT_FIELDS = ("sample", "depth_cm", "value", "unit", "temp_c", "compensated", "ratio",
+                "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa", "meter",
+                "replicate_group", "note", "taken_at")
+#: Columns computed by science.convert, stored beside the input.
+COMPUTED_FIELDS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method", "flags")
+
+
+class StoreError(Exception):
+    """A storage problem the user must hear about (corrupt file, conflict...)."""
+
+    def __init__(self, message: str, field: str | None = None, status: int = 400):
+        super().__init__(message)
+        self.message = message
+        self.field = field
+        self.status = status
+
+
+def utc_now() -> str:
+    return dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
+
+
+def _migrations() -> list[tuple[int, str]]:
+    files = sorted(p for p in resources.files("fieldapp").joinpath("schema").iterdir()
+                   if p.name.endswith(".sql"))
+    return [(int(p.name.split("_", 1)[0]), p.read_text(encoding="utf-8")) for p in files]
+
+
+def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
+    """Open (creating if needed) the database and bring its schema up to date.
+
+    ``upgrade=False`` skips the checks and migrations (per-request connections
+    of a server that already ran them at start-up).
+
+    A file that is not a SQLite database, or a SQLite database of another
+    program, raises StoreError and is left untouched.
+    """
+    path = Path(path)
+    existed = path.exists() and path.stat().st_size > 0
+    conn = sqlite3.connect(path, timeout=30, isolation_level=None,
+                           check_same_thread=False)
+    conn.row_factory = sqlite3.Row
+    conn.execute("PRAGMA foreign_keys = ON")
+    conn.execute("PRAGMA busy_timeout = 30000")
+    if not upgrade:
+        conn.execute("PRAGMA synchronous = FULL")
+        return conn
+    try:
+        conn.execute("PRAGMA synchronous = FULL")
+        if existed:
+            tables = {r[0] for r in conn.execute(
+                "SELECT name FROM sqlite_master WHERE type='table'")}
+            if tables and "readings" not in tables:
+                raise StoreError(f"{path} is a database of another program; fieldapp will "
+                                 "not touch it. Choose another --data folder.", status=500)
+        conn.execute("PRAGMA journal_mode = WAL")
+        migrate(conn)
+    except sqlite3.DatabaseError as e:
+        conn.close()
+        raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
+                         "it is; restore a backup or choose another --data folder.",
+                         status=500) from None
+    except StoreError:
+        conn.close()
+        raise
+    return conn
+
+
+def migrate(conn: sqlite3.Connection) -> int:
+    """Apply every schema file newer than the database's user_version."""
+    current = conn.execute("PRAGMA user_version").fetchone()[0]
+    known = _migrations()
+    newest = max(v for v, _ in known)
+    if current > newest:
+        raise StoreError(f"this database was written by a newer fieldapp (schema {current}, "
+                         f"this program knows {newest}); update fieldapp.", status=500)
+    for version, sql in known:
+        if version <= current:
+            continue
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            # executescript would commit on its own; run statements one by one.
+            for stmt in _split_sql(sql):
+                conn.execute(stmt)
+            conn.execute(f"PRAGMA user_version = {version:d}")
+            conn.execute("COMMIT")
+        except BaseException:
+            conn.execute("ROLLBACK")
+            raise
+    return conn.execute("PRAGMA user_version").fetchone()[0]
+
+
+def _split_sql(script: str) -> list[str]:
+    stmts, buf = [], ""
+    for line in script.splitlines(keepends=True):
+        if line.lstrip().startswith("--") and not buf.strip():
+            continue
+        buf += line
+        if sqlite3.complete_statement(buf):
+            stmts.append(buf.strip())
+            buf = ""
+    if buf.strip():
+        stmts.append(buf.strip())
+    return stmts
+
+
+class transaction:
+    """``with transaction(conn):`` — BEGIN IMMEDIATE ... COMMIT, or ROLLBACK on
+    error. Inside an open transaction it becomes a SAVEPOINT, so a function
+    that writes can be called alone or as part of a larger all-or-nothing job
+    (an import)."""
+
+    def __init__(self, conn: sqlite3.Connection):
+        self.conn = conn
+        self.nested = False
+
+    def __enter__(self):
+        self.nested = self.conn.in_transaction
+        self.conn.execute("SAVEPOINT tx" if self.nested else "BEGIN IMMEDIATE")
+        return self.conn
+
+    def __exit__(self, exc_type, exc, tb):
+        if self.nested:
+            if exc_type:
+                self.conn.execute("ROLLBACK TO tx")
+            self.conn.execute("RELEASE tx")
+        else:
+            self.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+        return False
+
+
+# ---------------------------------------------------------------- sites
+
+def clean_site_name(name) -> str:
+    name = " ".join(str(name or "").split())
+    if not name:
+        raise StoreError("Type a site name, e.g. Block 3.", "site")
+    if len(name) > SITE_NAME_MAX:
+        raise StoreError(f"Site names are at most {SITE_NAME_MAX} characters; shorten it.",
+                         "site")
+    if any(ord(c) < 32 for c in name):
+        raise StoreError("Site names cannot contain control characters.", "site")
+    return name
+
+
+def get_site(conn, name_or_id) -> sqlite3.Row | None:
+    if isinstance(name_or_id, int):
+        return conn.execute("SELECT * FROM sites WHERE id = ?", (name_or_id,)).fetchone()
+    return conn.execute("SELECT * FROM sites WHERE name = ?",
+                        (" ".join(str(name_or_id).split()),)).fetchone()
+
+
+def ensure_site(conn, name: str, **attrs) -> sqlite3.Row:
+    """Return the site called ``name``, creating it (inside the caller's
+    transaction) if it does not exist."""
+    name = clean_site_name(name)
+    row = get_site(conn, name)
+    if row is None:
+        conn.execute(
+            "INSERT INTO sites (name, crop, latitude, longitude, sp_pct, texture, kind, notes,"
+            " created_at) VALUES (?,?,?,?,?,?,?,?,?)",
+            (name, attrs.get("crop"), attrs.get("latitude"), attrs.get("longitude"),
+             attrs.get("sp_pct"), attrs.get("texture"), attrs.get("kind") or "field",
+             attrs.get("notes") or "", utc_now()))
+        row = get_site(conn, name)
+    return row
+
+
+SITE_EDITABLE = ("crop", "latitude", "longitude", "sp_pct", "texture", "kind", "notes")
+
+
+def update_site(conn, site_id: int, **attrs) -> sqlite3.Row:
+    cols = [k for k in SITE_EDITABLE if k in attrs]
+    if cols:
+        with transaction(conn):
+            conn.execute(f"UPDATE sites SET {', '.join(c + ' = ?' for c in cols)} WHERE id = ?",
+                         [attrs[c] for c in cols] + [site_id])
+    return get_site(conn, site_id)
+
+
+def list_sites(conn) -> list[sqlite3.Row]:
+    """Every site with its reading count and latest current reading."""
+    return conn.execute("""
+        SELECT s.*,
+               (SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id) AS n_readings,
+               l.taken_at AS last_taken_at, l.sample AS last_sample, l.value AS last_value,
+               l.unit AS last_unit, l.ec25_dS_m AS last_ec25_dS_m, l.ece_dS_m AS last_ece_dS_m,
+               l.flags AS last_flags
+        FROM sites s
+        LEFT JOIN readings l ON l.id = (
+            SELECT r.id FROM readings r JOIN reading_status st ON st.id = r.id
+            WHERE r.site_id = s.id AND st.status = 'current'
+            ORDER BY r.taken_at DESC, r.id DESC LIMIT 1)
+        ORDER BY s.name COLLATE NOCASE""").fetchall()
+
+
+# ---------------------------------------------------------------- readings
+
+def _visit_id(conn, site_id: int, taken_at: str, visited_by: str) -> int:
+    day = taken_at[:10]
+    conn.execute("INSERT OR IGNORE INTO visits (site_id, visit_date, visited_by) VALUES (?,?,?)",
+                 (site_id, day, visited_by or ""))
+    return conn.execute("SELECT id FROM visits WHERE site_id=? AND visit_date=? AND visited_by=?",
+                        (site_id, day, visited_by or "")).fetchone()[0]
+
+
+def get_reading(conn, uuid: str) -> sqlite3.Row | None:
+    return conn.execute(_READING_SELECT + " WHERE r.uuid = ?", (uuid,)).fetchone()
+
+
+_READING_SELECT = """
+    SELECT r.*, s.name AS site, st.status, st.void_reason, st.corrected_by_uuid,
+           p.uuid AS supersedes_uuid, v.visit_date, v.visited_by, vo.voided_at
+    FROM readings r
+    JOIN sites s ON s.id = r.site_id
+    JOIN visits v ON v.id = r.visit_id
+    JOIN reading_status st ON st.id = r.id
+    LEFT JOIN readings p ON p.id = r.supersedes_id
+    LEFT JOIN voids vo ON vo.reading_id = r.id"""
+
+
+def insert_reading(conn, rec: dict, site_attrs: dict | None = None) -> tuple[sqlite3.Row, bool]:
+    """Store one reading; return (row, created).
+
+    ``rec`` holds the INPUT_FIELDS, the COMPUTED_FIELDS, ``uuid``, ``site``,
+    ``result_json``, ``app_version`` and optionally ``visited_by``,
+    ``supersedes_uuid``, ``recorded_at``. The same uuid again returns the
+    stored row and creates nothing (a resend from the outbox). A correction
+    (``supersedes_uuid``) of a reading already corrected or voided is refused.
+    """
+    with transaction(conn):
+        existing = get_reading(conn, rec["uuid"])
+        if existing is not None:
+            if (existing["site"].lower() != " ".join(str(rec["site"]).split()).lower()
+                    or existing["value"] != rec["value"] or existing["unit"] != rec["unit"]):
+                raise StoreError("This reading id was already used for a different reading; "
+                                 "the stored one was kept.", "uuid", status=409)
+            return existing, False
+        site = ensure_site(conn, rec["site"], **(site_attrs or {}))
+        supersedes_id = None
+        if rec.get("supersedes_uuid"):
+            old = get_reading(conn, rec["supersedes_uuid"])
+            if old is None:
+                raise StoreError("The reading to correct does not exist.", "supersedes", 404)
+            if old["status"] != "current":
+                raise StoreError(f"That reading is already {old['status']}; correct the "
+                                 "newest version instead.", "supersedes", 409)
+            if old["site_id"] != site["id"]:
+                raise StoreError("A correction must stay on the same site.", "site", 409)
+            supersedes_id = old["id"]
+        visit_id = _visit_id(conn, site["id"], rec["taken_at"], rec.get("visited_by") or "")
+        cols = ("uuid", "site_id", "visit_id", "supersedes_id") + INPUT_FIELDS + COMPUTED_FIELDS \
+            + ("result_json", "app_version", "recorded_at")
+        vals = [rec["uuid"], site["id"], visit_id, supersedes_id] \
+            + [rec.get(k) for k in INPUT_FIELDS] + [rec.get(k) for k in COMPUTED_FIELDS] \
+            + [rec["result_json"], rec["app_version"], rec.get("recorded_at") or utc_now()]
+        vals[cols.index("compensated")] = 1 if rec.get("compensated") else 0
+        vals[cols.index("note")] = rec.get("note") or ""
+        vals[cols.index("flags")] = rec.get("flags") or ""
+        conn.execute(f"INSERT INTO readings ({', '.join(cols)}) VALUES "
+                     f"({', '.join('?' * len(cols))})", vals)
+        return get_reading(conn, rec["uuid"]), True
+
+
+def void_reading(conn, uuid: str, reason: str, voided_at: str | None = None) -> sqlite3.Row:
+    reason = " ".join(str(reason or "").split())
+    if not reason:
+        raise StoreError("Say why the reading is void (e.g. 'probe not rinsed').", "reason")
+    with transaction(conn):
+        row = get_reading(conn, uuid)
+        if row is None:
+            raise StoreError("No such reading.", "uuid", 404)
+        if row["status"] == "void":
+            return row
+        if row["status"] == "corrected":
+            raise StoreError("That reading was corrected; void the newest version.", "uuid", 409)
+        conn.execute("INSERT INTO voids (reading_id, reason, voided_at) VALUES (?,?,?)",
+                     (row["id"], reason, voided_at or utc_now()))
+    return get_reading(conn, uuid)
+
+
+def list_readings(conn, site_id: int | None = None, sample: str | None = None,
+                  date_from: str | None = None, date_to: str | None = None,
+                  newest_first: bool = True) -> list[sqlite3.Row]:
+    return list(iter_readings(conn, site_id, sample, date_from, date_to, newest_first))
+
+
+def iter_readings(conn, site_id=None, sample=None, date_from=None, date_to=None,
+                  newest_first=False) -> Iterator[sqlite3.Row]:
+    """Stream readings (every version) without loading them all into memory."""
+    where, args = [], []
+    if site_id is not None:
+        where.append("r.site_id = ?")
+        args.append(site_id)
+    if sample:
+        where.append("r.sample = ?")
+        args.append(sample)
+    if date_from:
+        where.append("substr(r.taken_at, 1, 10) >= ?")
+        args.append(date_from)
+    if date_to:
+        where.append("substr(r.taken_at, 1, 10) <= ?")
+        args.append(date_to)
+    sql = _READING_SELECT + (" WHERE " + " AND ".join(where) if where else "")
+    sql += " ORDER BY r.taken_at DESC, r.id DESC" if newest_first else " ORDER BY r.id"
+    cur = conn.execute(sql, args)
+    while True:
+        rows = cur.fetchmany(500)
+        if not rows:
+            break
+        yield from rows
+
+
+def reading_dict(row: sqlite3.Row) -> dict:
+    """A stored reading as JSON-ready dict (the API's record)."""
+    d = {k: row[k] for k in row.keys() if k not in ("result_json", "visit_id",
+                                                    "supersedes_id")}
+    d["compensated"] = bool(d["compensated"])
+    d["flags"] = [c for c in (row["flags"] or "").split(";") if c]
+    d["result"] = json.loads(row["result_json"])
+    return d

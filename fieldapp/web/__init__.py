@@ -1,0 +1,96 @@
+"""Web layer: blueprints for pages and the JSON API. Thin: they call
+``records``/``science`` and ``store``, nothing else computes here."""
+from __future__ import annotations
+
+import sqlite3
+
+from flask import current_app, g, jsonify, render_template, request
+
+from .. import store
+from ..science import InputError
+
+
+def get_db() -> sqlite3.Connection:
+    """The request's connection, opened on first use and closed at teardown."""
+    if "db" not in g:
+        g.db = store.connect(current_app.config["DATABASE"], upgrade=False)
+    return g.db
+
+
+def close_db(exc=None):
+    db = g.pop("db", None)
+    if db is not None:
+        db.close()
+
+
+def _wants_json() -> bool:
+    return request.path.startswith("/api/") or request.path.endswith(".csv")
+
+
+def num(x, digits: int = 4) -> str:
+    """Jinja filter: a number with a few significant digits, never 1e-05."""
+    if x is None:
+        return "—"
+    try:
+        x = float(x)
+    except (TypeError, ValueError):
+        return str(x)
+    if x != x:
+        return "—"
+    if x == 0:
+        return "0"
+    s = f"{x:.{digits}g}"
+    if "e" in s:
+        s = f"{x:f}".rstrip("0").rstrip(".")
+    return s
+
+
+def register_common(app):
+    app.teardown_appcontext(close_db)
+    app.add_template_filter(num, "num")
+
+    @app.errorhandler(InputError)
+    def _input_error(e):
+        return jsonify(error=e.message, field=e.field), 400
+
+    @app.errorhandler(store.StoreError)
+    def _store_error(e):
+        return jsonify(error=e.message, field=e.field), e.status
+
+    @app.errorhandler(sqlite3.OperationalError)
+    def _db_error(e):
+        app.logger.exception("database error")
+        msg = str(e)
+        if "readonly" in msg or "disk" in msg or "full" in msg:
+            text = ("The log could not be written (disk full or read-only). Your reading is "
+                    "kept on this device and will be sent again.")
+        else:
+            text = "The log is busy or unavailable; your reading is kept and will be sent again."
+        return jsonify(error=text, field=None), 503
+
+    @app.errorhandler(404)
+    def _not_found(e):
+        if _wants_json():
+            return jsonify(error="Not found.", field=None), 404
+        return render_template("error.html", message="That page does not exist."), 404
+
+    @app.errorhandler(405)
+    def _bad_method(e):
+        return jsonify(error="Method not allowed.", field=None), 405
+
+    @app.errorhandler(413)
+    def _too_large(e):
+        return jsonify(error="The request is too large.", field=None), 413
+
+    @app.errorhandler(400)
+    def _bad_request(e):
+        return jsonify(error="The request could not be read; send JSON.", field="body"), 400
+
+    @app.errorhandler(500)
+    def _server_error(e):
+        # No traceback reaches the user; it is in the server's log.
+        if _wants_json():
+            return jsonify(error="Something went wrong on the server; nothing was changed.",
+                           field=None), 500
+        return render_template("error.html",
+                               message="Something went wrong on the server."), 500

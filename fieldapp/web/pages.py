@@ -1,0 +1,103 @@
+"""HTML pages and the CSV download."""
+from __future__ import annotations
+
+import datetime as dt
+
+from flask import Blueprint, Response, abort, render_template, request, stream_with_context
+
+from .. import csvio, store
+from ..science import extracts, tolerance, units
+from ..science.convert import CAUTIONS
+from . import get_db
+
+bp = Blueprint("pages", __name__)
+
+
+def _form_meta() -> dict:
+    return {
+        "units": units.DISPLAY_UNITS,
+        "samples": [{"key": k.key, "label": k.label, "takes_ratio": k.takes_ratio,
+                     "default_ratio": k.default_ratio, "is_soil": k.is_soil}
+                    for k in extracts.SAMPLE_KINDS.values()],
+        "textures": sorted(extracts.TEXTURES),
+        "crops": sorted(c.name for c in tolerance.CROPS.values()),
+    }
+
+
+@bp.get("/")
+def entry():
+    db = get_db()
+    sites = [r["name"] for r in db.execute("SELECT name FROM sites ORDER BY name COLLATE NOCASE")]
+    return render_template("entry.html", meta=_form_meta(), sites=sites, cautions=CAUTIONS)
+
+
+@bp.get("/sw.js")
+def service_worker():
+    """Served from the root so that it may keep the entry page for offline use."""
+    from flask import current_app, send_from_directory
+    resp = send_from_directory(current_app.static_folder, "sw.js", max_age=0)
+    resp.headers["Cache-Control"] = "no-cache"
+    return resp
+
+
+@bp.get("/sites")
+def sites():
+    return render_template("sites.html", sites=store.list_sites(get_db()))
+
+
+@bp.get("/sites/<int:site_id>")
+def site_log(site_id):
+    db = get_db()
+    site = store.get_site(db, site_id)
+    if site is None:
+        abort(404)
+    sample = request.args.get("sample") or None
+    date_from = _date_arg("from")
+    date_to = _date_arg("to")
+    rows = store.list_readings(db, site_id=site_id, sample=sample, date_from=date_from,
+                               date_to=date_to)
+    readings = [store.reading_dict(r) for r in rows]
+    return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
+                           samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
+                           date_from=date_from or "", date_to=date_to or "")
+
+
+def _date_arg(name):
+    v = request.args.get(name) or None
+    if v:
+        try:
+            dt.date.fromisoformat(v)
+        except ValueError:
+            return None
+    return v
+
+
+@bp.get("/export.csv")
+def export_csv():
+    db = get_db()
+    site_id = None
+    name = request.args.get("site")
+    filename = "fieldapp-log.csv"
+    if name:
+        site = store.get_site(db, store.clean_site_name(name))
+        if site is None:
+            raise store.StoreError(f"No site called {name!r}.", "site", 404)
+        site_id = site["id"]
+        safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
+        filename = f"fieldapp-{safe}.csv"
+    # The generator keeps its own connection: the request's one closes at teardown.
+    conn = store.connect(db_path(), upgrade=False)
+
+    def generate():
+        try:
+            yield from csvio.export_lines(conn, site_id)
+        finally:
+            conn.close()
+
+    return Response(stream_with_context(generate()), mimetype="text/csv",
+                    headers={"Content-Disposition": f'attachment; filename="{filename}"'})
+
+
+def db_path():
+    from flask import current_app
+    return current_app.config["DATABASE"]

@@ -1,0 +1,136 @@
+"""CSV export and import: RFC 4180, plain numbers, round trip, merge without doubles."""
+from __future__ import annotations
+
+import csv
+import io
+
+import pytest
+
+from fieldapp import create_app, csvio, store
+
+BASE = {"site": "Block 3", "sample": "paste", "unit": "dS/m", "compensated": True}
+
+
+def add(client, **kw):
+    r = client.post("/api/readings", json={**BASE, **kw})
+    assert r.status_code == 201, r.get_json()
+    return r.get_json()
+
+
+def export_text(client, site=None):
+    r = client.get("/export.csv" + (f"?site={site}" if site else ""))
+    assert r.status_code == 200
+    assert r.mimetype == "text/csv"
+    return r.get_data(as_text=True)
+
+
+def parse(text):
+    assert text.startswith("\ufeff")          # BOM: spreadsheets then read µ as µ
+    return list(csv.DictReader(io.StringIO(text[1:], newline="")))
+
+
+def test_export_header_rows_and_status(client):
+    a = add(client, value="4.2", note='said "wet", then left')
+    b = add(client, value="1413", unit="µS/cm", sample="water", temp_c="12",
+            compensated=False, site="Well 2")
+    client.post(f"/api/readings/{a['uuid']}/correct", json={"value": "4.3"})
+    client.post(f"/api/readings/{b['uuid']}/void", json={"reason": "wrong bottle"})
+    text = export_text(client)
+    assert "\r\n" in text                       # RFC 4180 line ends
+    rows = parse(text)
+    for col in ("site", "taken_at", "sample", "value", "unit", "temp_c", "compensated",
+                "ratio", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
+                "flags", "status", "uuid"):
+        assert col in rows[0]
+    by_uuid = {r["uuid"]: r for r in rows}
+    assert len(rows) == 3
+    assert by_uuid[a["uuid"]]["status"] == "corrected"
+    assert by_uuid[a["uuid"]]["note"] == 'said "wet", then left'
+    assert by_uuid[b["uuid"]]["status"] == "void"
+    assert by_uuid[b["uuid"]]["unit"] == "µS/cm"
+    assert by_uuid[b["uuid"]]["void_reason"] == "wrong bottle"
+    # taken_at is ISO 8601 with its offset
+    assert by_uuid[a["uuid"]]["taken_at"][-6] in "+-"
+    # only one site
+    assert {r["site"] for r in parse(export_text(client, "Well 2"))} == {"Well 2"}
+
+
+def test_numbers_in_plain_decimal_notation(client):
+    add(client, value="0.00004", unit="S/cm")   # 0.04 dS/m: tiny numbers stay plain
+    rows = parse(export_text(client))
+    for col in ("value", "ec25_dS_m", "psi_s_MPa"):
+        assert "e" not in rows[0][col].lower(), rows[0][col]
+        float(rows[0][col])
+    assert rows[0]["value"] == "0.00004"
+
+
+def test_plain_number_helper():
+    assert csvio.plain_number(1e-05) == "0.00001"
+    assert csvio.plain_number(1234567.0) == "1234567"
+    assert csvio.plain_number(-0.036) == "-0.036"
+    assert csvio.plain_number(None) == ""
+    assert float(csvio.plain_number(1.2345e-12)) == 1.2345e-12
+
+
+def test_formula_like_text_is_neutralized_and_numbers_stay_numbers(client):
+    add(client, value="2.5", note="=HYPERLINK(\"x\")", meter="@meter")
+    row = parse(export_text(client))[0]
+    assert row["note"].startswith("'=")
+    assert row["meter"] == "'@meter"
+    assert row["psi_s_MPa"].startswith("-")      # a negative number is not neutralized
+
+
+def test_export_streams(client):
+    add(client, value="2.5")
+    r = client.get("/export.csv")
+    assert r.is_streamed
+
+
+def test_round_trip_preserves_every_field_and_merge_does_not_double(client, tmp_path):
+    a = add(client, value="4.2", depth_cm="30", meter="m1", note="x, y", temp_c="21",
+            compensated=False, replicate_group="S1", taken_at="2026-04-01T08:15:00-05:00")
+    add(client, value="0.9", sample="extract", ratio="1:2.5", texture="loam", unit="mS/cm",
+        site="Block 4")
+    add(client, value="700", sample="water", unit="ppm", tds_factor="0.7", site="Well")
+    client.post(f"/api/readings/{a['uuid']}/correct", json={"value": "4.0"})
+    first = export_text(client)
+
+    other = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "other")})
+    conn = store.connect(other.config["DATABASE"])
+    counts = csvio.import_csv(conn, io.StringIO(first))
+    assert counts == {"added": 4, "skipped": 0, "voided": 0}
+    again = csvio.import_csv(conn, io.StringIO(first))
+    assert again["added"] == 0 and again["skipped"] == 4
+    conn.close()
+    second = other.test_client().get("/export.csv").get_data(as_text=True)
+    strip = lambda t: [{k: v for k, v in r.items() if k != "recorded_at"} for r in parse(t)]
+    assert strip(second) == strip(first)
+    # recorded_at is kept as well
+    assert [r["recorded_at"] for r in parse(second)] == [r["recorded_at"] for r in parse(first)]
+
+
+def test_import_of_a_foreign_file_imports_nothing(client, db):
+    add(client, value="4.2")
+    for bad in ("name,age\nx,3\n", "", "\x00\x01garbage"):
+        with pytest.raises(csvio.ImportError_):
+            csvio.import_csv(db, io.StringIO(bad))
+    assert db.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1
+
+
+def test_import_with_one_bad_row_imports_nothing(client, db, tmp_path):
+    add(client, value="4.2")
+    text = export_text(client)
+    rows = parse(text)
+    rows.append({**rows[0], "uuid": "bbbbbbbb-0000-4000-8000-000000000001", "value": "4.3"})
+    rows.append({**rows[0], "uuid": "bbbbbbbb-0000-4000-8000-000000000002", "value": "oops"})
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=list(rows[0]))
+    w.writeheader()
+    w.writerows(rows)
+    other = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "o")})
+    conn = store.connect(other.config["DATABASE"])
+    with pytest.raises(csvio.ImportError_, match="line 4"):
+        csvio.import_csv(conn, io.StringIO(buf.getvalue()))
+    assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 0
+    assert conn.execute("SELECT COUNT(*) FROM sites").fetchone()[0] == 0
+    conn.close()
