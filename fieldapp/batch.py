@@ -176,7 +176,7 @@ def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS) -> int:
         except InputError as e:
             raise RowError(f"lines {line}-{line + len(chunk) - 1}: {e.message}", e.field) from None
         cols = {c: _format_column(out[c]) for c in OUTPUT_COLUMNS if c != "flags"}
-        cols["flags"] = [";".join(f.code for f in fl) for fl in out["flags"]]
+        cols["flags"] = out["flags"].codes_column().tolist()
         for i, r in enumerate(chunk):
             writer.writerow([r.get(c, "") for c in in_cols]
                             + [cols[c][i] for c in OUTPUT_COLUMNS if c not in in_cols])

@@ -422,3 +422,13 @@ def test_non_numeric_input_raises_clear_error():
 def test_caution_defers_to_lab_and_advice():
     text = o.CAUTION.lower()
     assert "laboratory" in text and "extension" in text and "estimate" in text
+
+
+def test_fast_inversion_at_25C_equals_bisection(monkeypatch):
+    """The 25 °C grid-and-Newton path must give the bisection's answer."""
+    ec = np.linspace(0.0, o.NACL_EC25_MAX_dS_m, 20001)
+    fast = o.nacl_molality_from_ec25(ec, 25.0)
+    monkeypatch.setattr(o, "_GRID_T_C", -999.0)   # force the bisection path
+    slow = o.nacl_molality_from_ec25(ec, 25.0)
+    assert not np.isnan(fast).any()
+    np.testing.assert_allclose(fast, slow, rtol=1e-10, atol=1e-14)

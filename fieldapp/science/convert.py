@@ -100,20 +100,55 @@ def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
     )
 
 
+def _codes(col: np.ndarray) -> tuple[np.ndarray, list]:
+    """Integer codes for a column (NaN and None are one value) and the value of each code."""
+    n = col.shape[0]
+    if col.dtype == object:
+        first = col[0]
+        if bool(np.all(col == first)):   # elementwise on object arrays, None included
+            return np.zeros(n, dtype=np.intp), [first]
+        mapping: dict = {}
+        codes = np.fromiter((mapping.setdefault(v, len(mapping)) for v in col),
+                            dtype=np.intp, count=n)
+        return codes, list(mapping)
+    col = np.asarray(col, dtype=float)
+    nan = np.isnan(col)
+    if nan.all():
+        return np.zeros(n, dtype=np.intp), [math.nan]
+    if not nan.any() and bool(np.all(col == col[0])):
+        return np.zeros(n, dtype=np.intp), [float(col[0])]
+    uniq, codes = np.unique(col, return_inverse=True)   # NaNs collapse into one
+    values = [float(u) for u in uniq]
+    return codes.astype(np.intp).ravel(), values
+
+
 def _groups(*cols):
     """Yield (key tuple, row index array) for each distinct combination of columns.
 
     Readings in a file share a handful of units, kinds and methods, so each
-    formula runs once per group on numpy arrays instead of once per row.
+    formula runs once per group on numpy arrays instead of once per row. A
+    constant column costs one vectorized comparison.
     """
     if len(cols[0]) == 0:
         return
-    keys = list(zip(*[c.tolist() for c in cols]))
-    index: dict = {}
-    for i, k in enumerate(keys):
-        index.setdefault(k, []).append(i)
-    for k, rows in index.items():
-        yield k, np.asarray(rows, dtype=np.intp)
+    combined = np.zeros(len(cols[0]), dtype=np.int64)
+    values, code_arrays = [], []
+    for col in cols:
+        codes, vals = _codes(col)
+        values.append(vals)
+        code_arrays.append(codes)
+        combined = combined * len(vals) + codes
+        if len(vals) > 1:
+            _, combined = np.unique(combined, return_inverse=True)
+            combined = combined.ravel().astype(np.int64)
+    if int(combined.max()) == 0:
+        yield tuple(v[0] for v in values), np.arange(len(cols[0]), dtype=np.intp)
+        return
+    order = np.argsort(combined, kind="stable")
+    bounds = np.flatnonzero(np.diff(combined[order])) + 1
+    for rows in np.split(order, bounds):
+        i = rows[0]
+        yield tuple(values[k][code_arrays[k][i]] for k in range(len(cols))), rows
 
 
 def _nan_to_none(x):
@@ -184,16 +219,22 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     psi_method = np.where(np.isnan(psi_s), None,
                           np.where(use_fb, fallback, osmotic.DEFAULT_ROUTE)).astype(object)
 
-    # 5. soil solution (soil kinds only)
-    ec_fc = np.where(is_soil, osmotic.soil_solution_ec_at_field_capacity(ece), np.nan)
-    psi_fc = np.where(is_soil, _psi_best(ec_fc, t_soln), np.nan)
-    sp_used = b.sp_pct.copy()
-    for (tex,), rows in _groups(b.texture):
-        if tex:
-            sp_used[rows] = np.where(np.isnan(sp_used[rows]),
-                                     extracts.sp_for_texture(tex), sp_used[rows])
-    ec_sw = np.where(is_soil, osmotic.soil_solution_ec(ece, sp_used, b.theta_g_pct), np.nan)
-    psi_sw = np.where(is_soil, _psi_best(ec_sw, t_soln), np.nan)
+    # 5. soil solution (soil kinds only; computed on those rows alone)
+    ec_fc = np.full(n, np.nan)
+    psi_fc = np.full(n, np.nan)
+    ec_sw = np.full(n, np.nan)
+    psi_sw = np.full(n, np.nan)
+    soil = np.flatnonzero(is_soil)
+    if soil.size:
+        sp_used = b.sp_pct[soil].copy()
+        for (tex,), rows in _groups(b.texture[soil]):
+            if tex:
+                sp_used[rows] = np.where(np.isnan(sp_used[rows]),
+                                         extracts.sp_for_texture(tex), sp_used[rows])
+        ec_fc[soil] = osmotic.soil_solution_ec_at_field_capacity(ece[soil])
+        psi_fc[soil] = _psi_best(ec_fc[soil], t_soln[soil])
+        ec_sw[soil] = osmotic.soil_solution_ec(ece[soil], sp_used, b.theta_g_pct[soil])
+        psi_sw[soil] = _psi_best(ec_sw[soil], t_soln[soil])
     psi_root = np.where(np.isnan(psi_sw), psi_fc, psi_sw)
     psi_total = osmotic.total_water_potential(psi_root, b.matric_MPa)
     margin = osmotic.margin_to_wilting_point(psi_total)
@@ -375,7 +416,8 @@ def convert_reading(d: dict) -> dict:
     `POST /api/preview` and the stored row."""
     kw = validate_reading(d)
     out = convert_batch(make_batch(**kw))
-    row = {k: v[0] for k, v in out.items()}
+    row = {k: v[0] for k, v in out.items() if k != "flags"}
+    row["flags"] = out["flags"].for_row(0)
     crop = row["crop"]
     result = {
         "input": {

@@ -266,10 +266,9 @@ def water_salinity_hazard(ecw) -> np.ndarray:
     """
     w = _as_array(ecw, "ecw", "Water EC")
     lo, hi = WATER_HAZARD_BOUNDS_dS_m
-    out = np.where(w < lo, "none", np.where(w <= hi, "slight_to_moderate", "severe"))
-    out = out.astype(object)
-    out[np.isnan(w)] = None
-    return out
+    keys = np.array([None, "none", "slight_to_moderate", "severe"], dtype=object)
+    idx = np.where(np.isnan(w), 0, np.where(w < lo, 1, np.where(w <= hi, 2, 3)))
+    return keys[np.atleast_1d(idx)].reshape(np.shape(idx))
 
 
 def water_salinity_hazard_one(ecw: float) -> str | None:
