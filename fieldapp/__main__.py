@@ -28,7 +28,10 @@ class _Parser(argparse.ArgumentParser):
 def _fmt(x, unit="", digits=3):
     if x is None:
         return "—"
-    return f"{x:.{digits}g} {unit}".rstrip()
+    s = f"{x:.{digits}g}"
+    if "e" in s:
+        s = f"{x:.0f}" if abs(x) >= 1 else f"{x:.{digits + 3}f}".rstrip("0")
+    return f"{s} {unit}".rstrip()
 
 
 def format_result(r: dict) -> str:
@@ -88,13 +91,21 @@ def format_result(r: dict) -> str:
 
 
 def cmd_convert(a) -> int:
-    from .science.convert import convert_reading
+    from .science.convert import convert_reading, meter_context, parse_meter_range, parse_number
+    lo = hi = res = None
+    if a.meter_range:
+        lo, hi = parse_meter_range(a.meter_range)
+    if a.resolution is not None:
+        res = parse_number(a.resolution, "resolution", "a resolution")
+        if res is None or res <= 0:
+            raise InputError("The resolution must be a positive number in the reading's unit.",
+                             "resolution")
     result = convert_reading({
         "value": a.value, "unit": a.unit, "sample": a.sample, "ratio": a.ratio,
         "temp_c": a.temp, "compensated": a.compensated, "sp": a.sp, "texture": a.texture,
         "crop": a.crop, "matric_MPa": a.matric, "tds_factor": a.tds_factor,
         "theta_g_pct": a.water_content, "ece_method": a.method,
-    })
+    }, context=lambda kw: meter_context(kw, lo, hi, res))
     if a.json:
         json.dump(result, sys.stdout, ensure_ascii=False, indent=2)
         sys.stdout.write("\n")
@@ -226,6 +237,9 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--matric", help="matric potential in MPa (e.g. -0.05)")
     c.add_argument("--water-content", help="gravimetric water content now, %%")
     c.add_argument("--tds-factor", help="the meter's EC-to-TDS factor (0.5, 0.64, 0.7)")
+    c.add_argument("--meter-range", help="the meter's range MIN:MAX in the reading's unit, "
+                   "e.g. 0:1999")
+    c.add_argument("--resolution", help="the meter's display step in the reading's unit, e.g. 1")
     c.add_argument("--json", action="store_true", help="print JSON")
     c.set_defaults(func=cmd_convert)
 

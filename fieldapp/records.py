@@ -16,6 +16,7 @@ from .science import InputError
 from .science.convert import convert_reading, parse_number
 
 NOTE_MAX = 2000
+DEFAULT_MAX_AGE_DAYS = 7.0   # see meters.DEFAULT_MAX_AGE_DAYS
 SHORT_TEXT_MAX = 120
 _UUID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{7,63}$")
 
@@ -47,9 +48,19 @@ def _short_text(d: dict, key: str, limit: int = SHORT_TEXT_MAX) -> str | None:
     return v or None
 
 
-def preview(payload: dict, site: dict | None = None) -> dict:
-    """The conversion result for a reading, with site defaults applied."""
-    return convert_reading(with_site_defaults(payload, site))
+def _context(conn, payload, site, max_age_days):
+    if conn is None:
+        return None
+    from . import meters
+    return lambda kw: meters.reading_context(conn, kw, payload, site, max_age_days)
+
+
+def preview(payload: dict, site=None, conn=None,
+            max_age_days: float = DEFAULT_MAX_AGE_DAYS) -> dict:
+    """The conversion result for a reading, with site defaults applied and,
+    given a connection, checked against its meter, calibration and history."""
+    return convert_reading(with_site_defaults(payload, site),
+                           context=_context(conn, payload, site, max_age_days))
 
 
 def with_site_defaults(payload: dict, site) -> dict:
@@ -66,9 +77,11 @@ def with_site_defaults(payload: dict, site) -> dict:
     return d
 
 
-def build_record(payload: dict, site=None) -> dict:
+def build_record(payload: dict, site=None, conn=None,
+                 max_age_days: float = DEFAULT_MAX_AGE_DAYS) -> dict:
     """Validate a submitted reading and compute everything; a dict for
-    store.insert_reading. Raises InputError or StoreError naming the field."""
+    store.insert_reading. Raises InputError or StoreError naming the field.
+    Given a connection the checks see the meter, calibration and history."""
     if not isinstance(payload, dict):
         raise InputError("Send the reading as a JSON object.", "body")
     rid = str(payload.get("uuid") or "").strip() or str(uuidlib.uuid4())
@@ -76,7 +89,7 @@ def build_record(payload: dict, site=None) -> dict:
         raise InputError("uuid must be 8 to 64 letters, digits or -_.:", "uuid")
     site_name = store.clean_site_name(payload.get("site"))
     d = with_site_defaults(payload, site)
-    result = convert_reading(d)
+    result = convert_reading(d, context=_context(conn, payload, site, max_age_days))
     inp = result["input"]
     depth = parse_number(payload.get("depth_cm"), "depth_cm", "a depth")
     if depth is not None and not (0 <= depth <= 500):
@@ -117,7 +130,7 @@ def build_record(payload: dict, site=None) -> dict:
     }
 
 
-def save_reading(conn, payload: dict):
+def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS):
     """Validate, convert and store; returns (row, created)."""
     site = None
     if isinstance(payload, dict) and payload.get("site"):
@@ -125,5 +138,14 @@ def save_reading(conn, payload: dict):
             site = store.get_site(conn, store.clean_site_name(payload["site"]))
         except store.StoreError:
             site = None
-    rec = build_record(payload, site)
+    if isinstance(payload, dict) and payload.get("uuid"):
+        existing = store.get_reading(conn, str(payload["uuid"]).strip())
+        if existing is not None:   # a resend: answer before recomputing anything
+            rec = {"uuid": existing["uuid"], "site": payload.get("site"),
+                   "value": parse_number(payload.get("value"), "value"),
+                   "unit": str(payload.get("unit") or "").strip()}
+            if (str(rec["site"] or "").strip().lower() == existing["site"].lower()
+                    and rec["value"] == existing["value"] and rec["unit"] == existing["unit"]):
+                return existing, False
+    rec = build_record(payload, site, conn, max_age_days)
     return store.insert_reading(conn, rec)

@@ -299,6 +299,145 @@ def void_reading(conn, uuid: str, reason: str, voided_at: str | None = None) -> 
     return get_reading(conn, uuid)
 
 
+# ---------------------------------------------------------------- meters and checks
+
+def _meter_row_dict(row) -> dict:
+    d = {k: row[k] for k in row.keys()}
+    d["units"] = [u for u in (row["units"] or "").split(";") if u]
+    d["ranges"] = json.loads(row["ranges_json"])
+    d.pop("ranges_json")
+    d["atc"] = bool(row["atc"])
+    return d
+
+
+def get_meter(conn, name_or_id) -> dict | None:
+    if isinstance(name_or_id, int):
+        row = conn.execute("SELECT * FROM meters WHERE id = ?", (name_or_id,)).fetchone()
+    else:
+        row = conn.execute("SELECT * FROM meters WHERE name = ?",
+                           (" ".join(str(name_or_id).split()),)).fetchone()
+    return None if row is None else _meter_row_dict(row)
+
+
+def list_meters(conn) -> list[dict]:
+    rows = conn.execute("SELECT * FROM meters ORDER BY name COLLATE NOCASE").fetchall()
+    meters = [_meter_row_dict(r) for r in rows]
+    for m in meters:
+        m["last_check"] = last_calibration(conn, m["id"])
+    return meters
+
+
+def insert_meter(conn, m: dict) -> dict:
+    """Store a meter profile (validated by the caller); names are unique."""
+    with transaction(conn):
+        if get_meter(conn, m["name"]) is not None:
+            raise StoreError(f"A meter called {m['name']!r} exists already.", "name", 409)
+        conn.execute(
+            "INSERT INTO meters (name, units, ranges_json, accuracy_pct, atc, atc_coeff_pct,"
+            " ref_temp_c, atc_min_c, atc_max_c, tds_factor, notes, created_at)"
+            " VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
+            (m["name"], ";".join(m["units"]), json.dumps(m["ranges"], ensure_ascii=False),
+             m.get("accuracy_pct"), 1 if m.get("atc") else 0, m.get("atc_coeff_pct"),
+             m.get("ref_temp_c") or 25.0, m.get("atc_min_c"), m.get("atc_max_c"),
+             m.get("tds_factor"), m.get("notes") or "", utc_now()))
+    return get_meter(conn, m["name"])
+
+
+def insert_calibration(conn, c: dict) -> dict:
+    with transaction(conn):
+        cur = conn.execute(
+            "INSERT INTO calibrations (meter_id, standard, standard_uS_cm, value, unit, temp_c,"
+            " compensated, expected_uS_cm, measured_uS_cm, deviation_pct, tolerance_pct, passed,"
+            " checked_at, note) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+            (c["meter_id"], c["standard"], c.get("standard_uS_cm"), c["value"], c["unit"],
+             c.get("temp_c"), 1 if c.get("compensated") else 0, c["expected_uS_cm"],
+             c["measured_uS_cm"], c["deviation_pct"], c["tolerance_pct"],
+             1 if c["passed"] else 0, c.get("checked_at") or utc_now(), c.get("note") or ""))
+        row = conn.execute("SELECT * FROM calibrations WHERE id = ?", (cur.lastrowid,)).fetchone()
+    return _cal_dict(row)
+
+
+def _cal_dict(row) -> dict:
+    d = {k: row[k] for k in row.keys()}
+    d["passed"] = bool(d["passed"])
+    d["compensated"] = bool(d["compensated"])
+    return d
+
+
+def last_calibration(conn, meter_id: int) -> dict | None:
+    row = conn.execute("SELECT * FROM calibrations WHERE meter_id = ? "
+                       "ORDER BY checked_at DESC, id DESC LIMIT 1", (meter_id,)).fetchone()
+    return None if row is None else _cal_dict(row)
+
+
+def list_calibrations(conn, meter_id: int) -> list[dict]:
+    rows = conn.execute("SELECT * FROM calibrations WHERE meter_id = ? "
+                        "ORDER BY checked_at DESC, id DESC", (meter_id,)).fetchall()
+    return [_cal_dict(r) for r in rows]
+
+
+def history_values(conn, site_id: int, sample: str, depth_cm, exclude_uuid=None,
+                   before: str | None = None) -> list[float]:
+    """ECe (soil) or EC at 25 °C (other kinds) of the site's current readings of
+    the same kind and depth, for the history check."""
+    col = "ece_dS_m" if sample in ("paste", "extract") else "ec25_dS_m"
+    sql = (f"SELECT r.{col} FROM readings r JOIN reading_status st ON st.id = r.id "
+           "WHERE r.site_id = ? AND r.sample = ? AND st.status = 'current' "
+           f"AND r.{col} IS NOT NULL AND r.uuid IS NOT ? ")
+    args: list = [site_id, sample, exclude_uuid]
+    if depth_cm is None:
+        sql += "AND r.depth_cm IS NULL "
+    else:
+        sql += "AND abs(r.depth_cm - ?) < 0.5 "
+        args.append(depth_cm)
+    if before:
+        sql += "AND r.taken_at < ? "
+        args.append(before)
+    return [r[0] for r in conn.execute(sql, args)]
+
+
+def replicate_values(conn, site_id: int, group: str, day: str, sample: str,
+                     exclude_uuid=None) -> list[float]:
+    """Values of the other current replicates of a sample (same site, group, day, kind)."""
+    col = "ece_dS_m" if sample in ("paste", "extract") else "ec25_dS_m"
+    rows = conn.execute(
+        f"SELECT r.{col} FROM readings r JOIN reading_status st ON st.id = r.id "
+        "WHERE r.site_id = ? AND r.replicate_group = ? AND substr(r.taken_at, 1, 10) = ? "
+        f"AND r.sample = ? AND st.status = 'current' AND r.uuid IS NOT ? AND r.{col} IS NOT NULL",
+        (site_id, group, day, sample, exclude_uuid)).fetchall()
+    return [r[0] for r in rows]
+
+
+def ack_flag(conn, uuid: str, code: str, note: str) -> dict:
+    """Acknowledge a flag of a reading with a note (kept; a second ack of the
+    same flag is refused so the first note stays)."""
+    with transaction(conn):
+        row = get_reading(conn, uuid)
+        if row is None:
+            raise StoreError("No such reading.", "uuid", 404)
+        if code not in (row["flags"] or "").split(";"):
+            raise StoreError(f"This reading has no flag {code!r}.", "code", 400)
+        try:
+            conn.execute("INSERT INTO flag_acks (reading_id, code, note, acked_at) "
+                         "VALUES (?,?,?,?)", (row["id"], code, note, utc_now()))
+        except sqlite3.IntegrityError:
+            raise StoreError("This flag was acknowledged already.", "code", 409) from None
+    return acks_for_readings(conn, [row["id"]])[row["id"]]
+
+
+def acks_for_readings(conn, reading_ids) -> dict[int, list[dict]]:
+    ids = list(reading_ids)
+    out: dict[int, list[dict]] = {i: [] for i in ids}
+    for k in range(0, len(ids), 500):
+        part = ids[k:k + 500]
+        for r in conn.execute(
+                f"SELECT reading_id, code, note, acked_at FROM flag_acks WHERE reading_id IN "
+                f"({','.join('?' * len(part))}) ORDER BY id", part):
+            out[r["reading_id"]].append({"code": r["code"], "note": r["note"],
+                                         "acked_at": r["acked_at"]})
+    return out
+
+
 def list_readings(conn, site_id: int | None = None, sample: str | None = None,
                   date_from: str | None = None, date_to: str | None = None,
                   newest_first: bool = True) -> list[sqlite3.Row]:

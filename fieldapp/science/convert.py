@@ -18,7 +18,7 @@ Steps, in order (each a documented function in its own module):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -59,6 +59,7 @@ class Batch:
     matric_MPa: np.ndarray
     ece_method: np.ndarray
     crop: np.ndarray
+    context: dict = field(default_factory=dict)
 
     def __len__(self) -> int:
         return int(self.value.shape[0])
@@ -75,9 +76,21 @@ def _col(x, n, dtype, default):
     return arr
 
 
+#: Optional columns that give the plausibility rules their context: the
+#: meter profile, the last calibration check, the site's history at the same
+#: kind and depth, the other replicates of the sample. Floats are NaN where
+#: unknown; the object columns hold a tuple or None.
+CONTEXT_FLOAT = ("meter_min_dS_m", "meter_max_dS_m", "meter_resolution_dS_m",
+                 "meter_temp_min_c", "meter_temp_max_c", "meter_known", "cal_passed",
+                 "cal_deviation_pct", "cal_age_days", "cal_max_age_days",
+                 "history_median", "history_mad", "history_n")
+CONTEXT_OBJECT = ("meter_units", "replicate_others")
+
+
 def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
                compensated=False, sp_pct=None, texture=None, tds_factor=None,
-               theta_g_pct=None, matric_MPa=None, ece_method=None, crop=None) -> Batch:
+               theta_g_pct=None, matric_MPa=None, ece_method=None, crop=None,
+               context: dict | None = None) -> Batch:
     """Broadcast scalars and columns into a :class:`Batch` of equal-length arrays."""
     value = np.atleast_1d(np.asarray(value, dtype=float))
     n = value.shape[0]
@@ -97,7 +110,26 @@ def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
         matric_MPa=_col(matric_MPa, n, float, np.nan),
         ece_method=_col(ece_method, n, object, None),
         crop=_col(crop, n, object, None),
+        context=_context(context or {}, n),
     )
+
+
+def _context(ctx: dict, n: int) -> dict:
+    out = {}
+    for k, v in ctx.items():
+        if k in CONTEXT_FLOAT:
+            out[k] = _col(np.nan if v is None else v, n, float, np.nan)
+        elif k in CONTEXT_OBJECT:
+            if isinstance(v, np.ndarray) and v.dtype == object and v.shape == (n,):
+                out[k] = v
+            else:
+                arr = np.empty(n, dtype=object)
+                for i in range(n):
+                    arr[i] = v
+                out[k] = arr
+        else:
+            raise ValueError(f"unknown context column {k!r}")
+    return out
 
 
 def _codes(col: np.ndarray) -> tuple[np.ndarray, list]:
@@ -224,6 +256,7 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     psi_fc = np.full(n, np.nan)
     ec_sw = np.full(n, np.nan)
     psi_sw = np.full(n, np.nan)
+    sp_used_all = np.full(n, np.nan)
     soil = np.flatnonzero(is_soil)
     if soil.size:
         sp_used = b.sp_pct[soil].copy()
@@ -235,6 +268,7 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
         psi_fc[soil] = _psi_best(ec_fc[soil], t_soln[soil])
         ec_sw[soil] = osmotic.soil_solution_ec(ece[soil], sp_used, b.theta_g_pct[soil])
         psi_sw[soil] = _psi_best(ec_sw[soil], t_soln[soil])
+        sp_used_all[soil] = sp_used
     psi_root = np.where(np.isnan(psi_sw), psi_fc, psi_sw)
     psi_total = osmotic.total_water_potential(psi_root, b.matric_MPa)
     margin = osmotic.margin_to_wilting_point(psi_total)
@@ -293,6 +327,8 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
         "leaching_requirement": lr,
         "soil_class": soil_class,
         "water_hazard": water_hazard,
+        "sp_used_pct": sp_used_all,
+        **b.context,
     }
     out["flags"] = checks.reading_flags(out)
     return out
@@ -411,11 +447,47 @@ def _num(x, digits=6):
     return float(f"{x:.{digits}g}")
 
 
-def convert_reading(d: dict) -> dict:
+def meter_context(kw: dict, range_min=None, range_max=None, resolution=None,
+                  units_shown=None, temp_min_c=None, temp_max_c=None) -> dict:
+    """Context columns for a meter given in the reading's own unit (what a
+    scout reads off the meter's label): range and resolution -> dS/m."""
+    ctx = {}
+    factor = units.to_ec_dS_m(1.0, kw["unit"], tds_factor=kw.get("tds_factor")).item()
+    for key, v in (("meter_min_dS_m", range_min), ("meter_max_dS_m", range_max),
+                   ("meter_resolution_dS_m", resolution)):
+        if v is not None:
+            ctx[key] = float(v) * factor
+    if units_shown:
+        ctx["meter_units"] = tuple(units_shown)
+    if temp_min_c is not None:
+        ctx["meter_temp_min_c"] = float(temp_min_c)
+    if temp_max_c is not None:
+        ctx["meter_temp_max_c"] = float(temp_max_c)
+    return ctx
+
+
+def parse_meter_range(text) -> tuple[float, float]:
+    """'MIN:MAX' in the reading's unit, e.g. '0:1999'."""
+    parts = str(text).replace(" ", "").split(":")
+    if len(parts) != 2:
+        raise InputError("Give the meter range as MIN:MAX in the reading's unit, e.g. 0:1999.",
+                         "meter_range")
+    lo = parse_number(parts[0], "meter_range", "a range minimum")
+    hi = parse_number(parts[1], "meter_range", "a range maximum")
+    if lo is None or hi is None or lo < 0 or hi <= lo:
+        raise InputError("The meter range needs 0 <= MIN < MAX, e.g. 0:1999.", "meter_range")
+    return lo, hi
+
+
+def convert_reading(d: dict, context: dict | None = None) -> dict:
     """Validate and convert one reading; the JSON shape of `convert --json`,
-    `POST /api/preview` and the stored row."""
+    `POST /api/preview` and the stored row. ``context`` holds the optional
+    context columns (meter, calibration, history, replicates) or a callable
+    taking the validated fields and returning them."""
     kw = validate_reading(d)
-    out = convert_batch(make_batch(**kw))
+    if callable(context):
+        context = context(kw)
+    out = convert_batch(make_batch(**kw, context=context))
     row = {k: v[0] for k, v in out.items() if k != "flags"}
     row["flags"] = out["flags"].for_row(0)
     crop = row["crop"]

@@ -1,9 +1,9 @@
 """The JSON API the page uses; tests and other tools rely on these names."""
 from __future__ import annotations
 
-from flask import Blueprint, jsonify, request
+from flask import Blueprint, current_app, jsonify, request
 
-from .. import records, store
+from .. import meters, records, store
 from ..science import InputError, extracts, osmotic, tolerance, units
 from ..science.convert import parse_number
 from . import get_db
@@ -16,6 +16,11 @@ def _body() -> dict:
     if not isinstance(data, dict):
         raise InputError("Send the reading as a JSON object.", "body")
     return data
+
+
+def _max_age() -> float:
+    return float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS",
+                                        meters.DEFAULT_MAX_AGE_DAYS))
 
 
 def _site_or_404(name):
@@ -35,13 +40,13 @@ def preview():
             site = store.get_site(get_db(), store.clean_site_name(body["site"]))
         except store.StoreError:
             site = None
-    return jsonify(records.preview(body, site))
+    return jsonify(records.preview(body, site, get_db(), _max_age()))
 
 
 @bp.post("/readings")
 def save_reading():
     """Store a reading; the same uuid again returns the stored record (200)."""
-    row, created = records.save_reading(get_db(), _body())
+    row, created = records.save_reading(get_db(), _body(), _max_age())
     return jsonify(store.reading_dict(row)), 201 if created else 200
 
 
@@ -89,8 +94,65 @@ def correct_reading(rid):
     payload.update(body)
     payload["site"] = old["site"]
     payload["supersedes"] = rid
-    row, created = records.save_reading(db, payload)
+    row, created = records.save_reading(db, payload, _max_age())
     return jsonify(store.reading_dict(row)), 201 if created else 200
+
+
+@bp.post("/readings/<rid>/ack")
+def ack_flag(rid):
+    """Acknowledge a flag with a note: the flag stays, the note says why it is fine."""
+    body = _body()
+    code = str(body.get("code") or "").strip()
+    note = " ".join(str(body.get("note") or "").split())
+    if not code:
+        raise InputError("Say which flag (its code) you acknowledge.", "code")
+    if not note:
+        raise InputError("Add a short note saying why the flag is acceptable.", "note")
+    if len(note) > records.NOTE_MAX:
+        raise InputError(f"The note is at most {records.NOTE_MAX} characters.", "note")
+    return jsonify(store.ack_flag(get_db(), rid, code, note)), 201
+
+
+@bp.get("/meters")
+def list_meters():
+    return jsonify(meters=store.list_meters(get_db()), presets=meters.presets(),
+                   standards=meters.STANDARDS, max_age_days=_max_age(),
+                   default_tolerance_pct=meters.DEFAULT_TOLERANCE_PCT)
+
+
+@bp.post("/meters")
+def create_meter():
+    body = _body()
+    if body.get("preset") and not body.get("ranges"):
+        preset = next((p for p in meters.presets() if p["name"] == body["preset"]), None)
+        if preset is None:
+            raise InputError("Unknown preset; see GET /api/meters.", "preset")
+        body = {**preset, **{k: v for k, v in body.items() if k != "preset"}}
+    m = store.insert_meter(get_db(), meters.validate_meter(body))
+    return jsonify(m), 201
+
+
+@bp.post("/calibrations")
+def create_calibration():
+    """Check a meter against a standard; returns expected, deviation, passed."""
+    body = _body()
+    db = get_db()
+    name = body.get("meter")
+    meter = store.get_meter(db, str(name)) if name else None
+    if meter is None:
+        raise InputError("Choose a meter profile (add it on the Meters page first).", "meter")
+    check = meters.calibration_check(body, meter)
+    stored = store.insert_calibration(db, check)
+    return jsonify({**stored, "meter": meter["name"]}), 201
+
+
+@bp.get("/calibrations")
+def list_calibrations():
+    db = get_db()
+    meter = store.get_meter(db, str(request.args.get("meter") or ""))
+    if meter is None:
+        raise store.StoreError("No such meter.", "meter", 404)
+    return jsonify(store.list_calibrations(db, meter["id"]))
 
 
 def _site_attrs(body: dict) -> dict:

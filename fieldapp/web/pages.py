@@ -27,8 +27,19 @@ def _form_meta() -> dict:
 @bp.get("/")
 def entry():
     db = get_db()
-    sites = [r["name"] for r in db.execute("SELECT name FROM sites ORDER BY name COLLATE NOCASE")]
-    return render_template("entry.html", meta=_form_meta(), sites=sites, cautions=CAUTIONS)
+    sites = [s["name"] for s in store.list_sites(db)]
+    meter_names = [m["name"] for m in store.list_meters(db)]
+    return render_template("entry.html", meta=_form_meta(), sites=sites, meters=meter_names,
+                           cautions=CAUTIONS)
+
+
+@bp.get("/meters")
+def meters_page():
+    from .. import meters
+    db = get_db()
+    return render_template("meters.html", meters=store.list_meters(db), presets=meters.presets(),
+                           units=units.DISPLAY_UNITS, cautions=CAUTIONS,
+                           default_tolerance=meters.DEFAULT_TOLERANCE_PCT)
 
 
 @bp.get("/sw.js")
@@ -57,6 +68,9 @@ def site_log(site_id):
     rows = store.list_readings(db, site_id=site_id, sample=sample, date_from=date_from,
                                date_to=date_to)
     readings = [store.reading_dict(r) for r in rows]
+    acks = store.acks_for_readings(db, [r["id"] for r in readings])
+    for r in readings:
+        r["acks"] = {a["code"]: a for a in acks[r["id"]]}
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
                            date_from=date_from or "", date_to=date_to or "")

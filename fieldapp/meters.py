@@ -1,0 +1,237 @@
+"""Meter profiles, calibration checks, and the context a reading is checked in.
+
+A meter profile says what a meter can show (units, ranges, resolution,
+compensation); a calibration check compares it with a standard solution.
+Together with the site's history and the sample's replicates they become the
+context columns of science.convert (see CONTEXT_FLOAT / CONTEXT_OBJECT) so the
+plausibility rules can speak about the meter and the site.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+import statistics
+
+from . import store
+from .data import load_table
+from .science import InputError, temperature, units
+from .science.convert import parse_number
+
+#: Default tolerance of a calibration check, % of the expected value. Common
+#: practice: pocket meters state about ±2 %; a check off by more than 5 % means
+#: clean and recalibrate.
+DEFAULT_TOLERANCE_PCT = 5.0
+#: Days after which a meter's last check is called stale. Common practice:
+#: check at the start of every field day; weekly at the least.
+DEFAULT_MAX_AGE_DAYS = 7.0
+#: Linear temperature coefficient assumed for a user-defined standard whose
+#: table is unknown (common practice, 2 %/°C).
+USER_STANDARD_ALPHA = 0.02
+STANDARDS = {
+    "kcl_0.01": "0.01 mol/L KCl, 1413 µS/cm at 25 °C",
+    "user": "your own standard (nominal µS/cm at 25 °C)",
+}
+
+
+def presets() -> list[dict]:
+    """Generic meter profiles described by specification only (no brands)."""
+    out = []
+    for r in load_table("meter_presets"):
+        ranges = []
+        for part in r["ranges"].split("|"):
+            lo, hi, res, unit = part.split(":")
+            ranges.append({"min": float(lo), "max": float(hi), "resolution": float(res),
+                           "unit": unit})
+        out.append({
+            "name": r["name"], "units": r["units"].split(";"), "ranges": ranges,
+            "accuracy_pct": float(r["accuracy_pct"]) if r["accuracy_pct"] else None,
+            "atc": r["atc"] == "1",
+            "atc_coeff_pct": float(r["atc_coeff_pct"]) if r["atc_coeff_pct"] else None,
+            "atc_min_c": float(r["atc_min_c"]) if r["atc_min_c"] else None,
+            "atc_max_c": float(r["atc_max_c"]) if r["atc_max_c"] else None,
+            "tds_factor": float(r["tds_factor"]) if r["tds_factor"] else None,
+            "source": r["source"],
+        })
+    return out
+
+
+def _num(body, key, what, required=False):
+    v = parse_number(body.get(key), key, what)
+    if v is None and required:
+        raise InputError(f"Type {what}.", key)
+    return v
+
+
+def validate_meter(body: dict) -> dict:
+    """A meter profile from a form or JSON body; raises InputError naming the field."""
+    if not isinstance(body, dict):
+        raise InputError("Send the meter as a JSON object.", "body")
+    name = " ".join(str(body.get("name") or "").split())
+    if not name:
+        raise InputError("Give the meter a name, e.g. 'pocket tester 1'.", "name")
+    if len(name) > 120:
+        raise InputError("Meter names are at most 120 characters.", "name")
+    unit_list = body.get("units") or []
+    if isinstance(unit_list, str):
+        unit_list = [u for u in unit_list.replace(",", ";").split(";") if u.strip()]
+    canon = []
+    for u in unit_list:
+        canon.append(units.parse_unit(str(u)).canonical)
+    ranges = []
+    for k, r in enumerate(body.get("ranges") or []):
+        if not isinstance(r, dict):
+            raise InputError("Each range needs min, max, resolution and unit.", "ranges")
+        lo = _num(r, "min", "the range minimum", True)
+        hi = _num(r, "max", "the range maximum", True)
+        res = _num(r, "resolution", "the display step")
+        unit = units.parse_unit(str(r.get("unit") or (canon[0] if canon else ""))).canonical
+        if lo < 0 or hi <= lo:
+            raise InputError(f"Range {k + 1}: the minimum must be below the maximum.", "ranges")
+        if res is not None and not (0 < res < hi):
+            raise InputError(f"Range {k + 1}: the display step must be above 0 and below "
+                             "the maximum.", "ranges")
+        ranges.append({"min": lo, "max": hi, "resolution": res, "unit": unit})
+        if unit not in canon:
+            canon.append(unit)
+    if not canon:
+        raise InputError("Give at least one unit the meter displays.", "units")
+    acc = _num(body, "accuracy_pct", "the stated accuracy in %")
+    if acc is not None and not 0 < acc <= 50:
+        raise InputError("Accuracy is a percentage between 0 and 50.", "accuracy_pct")
+    atc = bool(body.get("atc"))
+    coeff = _num(body, "atc_coeff_pct", "the compensation coefficient in %/°C")
+    if coeff is not None and not 0.5 <= coeff <= 4:
+        raise InputError("The compensation coefficient is usually 1.5 to 2.5 %/°C; give it "
+                         "between 0.5 and 4.", "atc_coeff_pct")
+    tmin = _num(body, "atc_min_c", "a temperature")
+    tmax = _num(body, "atc_max_c", "a temperature")
+    if tmin is not None and tmax is not None and tmax <= tmin:
+        raise InputError("The compensation range needs min below max.", "atc_max_c")
+    ref = _num(body, "ref_temp_c", "the reference temperature") or 25.0
+    if ref not in (20.0, 25.0):
+        raise InputError("The reference temperature is 20 or 25 °C.", "ref_temp_c")
+    return {"name": name, "units": canon, "ranges": ranges, "accuracy_pct": acc, "atc": atc,
+            "atc_coeff_pct": coeff, "ref_temp_c": ref, "atc_min_c": tmin, "atc_max_c": tmax,
+            "tds_factor": _tds_factor(body), "notes": str(body.get("notes") or "")[:2000]}
+
+
+def _tds_factor(body):
+    f = _num(body, "tds_factor", "the meter's TDS factor")
+    if f is not None:
+        units.check_tds_factor(f)
+    return f
+
+
+def calibration_check(body: dict, meter: dict) -> dict:
+    """Expected value of the standard at the measured temperature, deviation
+    and pass/fail. For the 0.01 mol/L KCl standard the expected value comes
+    from temperature.kcl_001_uS_cm (published table) when the meter does not
+    compensate; a compensating meter should show 1413 µS/cm."""
+    standard = str(body.get("standard") or "kcl_0.01")
+    if standard not in STANDARDS:
+        raise InputError("The standard is kcl_0.01 or user.", "standard")
+    value = _num(body, "value", "the value the meter shows", True)
+    if value < 0:
+        raise InputError("The reading cannot be negative.", "value")
+    unit = str(body.get("unit") or "").strip()
+    if not unit:
+        raise InputError("Choose the unit the meter displays.", "unit")
+    pu = units.parse_unit(unit)
+    if pu.kind != "ec":
+        raise InputError("Check the meter in an EC unit (µS/cm or mS/cm), not TDS.", "unit")
+    temp_c = _num(body, "temp_c", "the standard's temperature")
+    if temp_c is not None:
+        temperature.check_temp_c(temp_c)
+    compensated = bool(body.get("compensated", meter.get("atc", False)))
+    tol = _num(body, "tolerance_pct", "a tolerance in %") or DEFAULT_TOLERANCE_PCT
+    if not 0.1 <= tol <= 50:
+        raise InputError("The tolerance is a percentage between 0.1 and 50.", "tolerance_pct")
+    nominal = None
+    if standard == "kcl_0.01":
+        nominal = float(temperature.kcl_001_uS_cm(25.0))
+        if compensated or temp_c is None:
+            expected = nominal
+        else:
+            expected = float(temperature.kcl_001_uS_cm(temp_c))
+            if math.isnan(expected):
+                raise InputError("The KCl table covers 0 to 50 °C; warm or cool the standard.",
+                                 "temp_c")
+    else:
+        nominal = _num(body, "standard_uS_cm", "the standard's value at 25 °C in µS/cm", True)
+        if nominal <= 0:
+            raise InputError("The standard's value must be positive.", "standard_uS_cm")
+        expected = nominal if (compensated or temp_c is None) else \
+            nominal * (1 + USER_STANDARD_ALPHA * (temp_c - 25.0))
+    measured = float(units.to_ec_dS_m(value, pu)) * 1000.0
+    deviation = (measured - expected) / expected * 100.0
+    return {"meter_id": meter["id"], "standard": standard, "standard_uS_cm": nominal,
+            "value": value, "unit": unit, "temp_c": temp_c, "compensated": compensated,
+            "expected_uS_cm": round(expected, 3), "measured_uS_cm": round(measured, 3),
+            "deviation_pct": round(deviation, 2), "tolerance_pct": tol,
+            "passed": abs(deviation) <= tol, "note": str(body.get("note") or "")[:2000]}
+
+
+def _range_for(meter: dict, ec_dS_m: float, tds_factor):
+    """(min, max, resolution) in dS/m of the range a reading falls in: the
+    most sensitive range that holds it, else the top range (pegged)."""
+    rs = []
+    for r in meter["ranges"]:
+        f = float(units.to_ec_dS_m(1.0, r["unit"], tds_factor=tds_factor))
+        rs.append((r["min"] * f, r["max"] * f, (r["resolution"] or math.nan) * f))
+    if not rs:
+        return None
+    rs.sort(key=lambda x: x[1])
+    overall_min = min(r[0] for r in rs)
+    for lo, hi, res in rs:
+        if ec_dS_m < hi:
+            return overall_min, rs[-1][1], res
+    return overall_min, rs[-1][1], rs[-1][2]
+
+
+def reading_context(conn, kw: dict, payload: dict, site, max_age_days: float,
+                    now: dt.datetime | None = None) -> dict:
+    """Context columns for one reading: meter, calibration, history, replicates."""
+    ctx: dict = {}
+    meter = None
+    name = " ".join(str(payload.get("meter") or "").split())
+    if name:
+        meter = store.get_meter(conn, name)
+    if meter is not None:
+        ctx["meter_known"] = 1.0
+        ctx["meter_units"] = tuple(meter["units"])
+        tds_factor = kw.get("tds_factor") or meter.get("tds_factor")
+        try:
+            ec = float(units.to_ec_dS_m(kw["value"], kw["unit"], tds_factor=kw.get("tds_factor")))
+            rng = _range_for(meter, ec, tds_factor)
+        except InputError:
+            rng = None   # a TDS range without a factor: no range check
+        if rng:
+            ctx["meter_min_dS_m"], ctx["meter_max_dS_m"], ctx["meter_resolution_dS_m"] = rng
+        if meter.get("atc_min_c") is not None:
+            ctx["meter_temp_min_c"] = meter["atc_min_c"]
+        if meter.get("atc_max_c") is not None:
+            ctx["meter_temp_max_c"] = meter["atc_max_c"]
+        last = store.last_calibration(conn, meter["id"])
+        ctx["cal_max_age_days"] = max_age_days
+        if last is not None:
+            ctx["cal_passed"] = 1.0 if last["passed"] else 0.0
+            ctx["cal_deviation_pct"] = last["deviation_pct"]
+            checked = dt.datetime.fromisoformat(last["checked_at"])
+            now = now or dt.datetime.now(dt.timezone.utc)
+            ctx["cal_age_days"] = max(0.0, (now - checked).total_seconds() / 86400.0)
+    if site is not None:
+        hist = store.history_values(conn, site["id"], kw["sample"],
+                                    parse_number(payload.get("depth_cm"), "depth_cm"),
+                                    exclude_uuid=payload.get("uuid"))
+        if hist:
+            med = statistics.median(hist)
+            ctx["history_median"] = med
+            ctx["history_mad"] = statistics.median(abs(x - med) for x in hist)
+            ctx["history_n"] = float(len(hist))
+        group = " ".join(str(payload.get("replicate_group") or "").split())
+        if group:
+            day = str(payload.get("taken_at") or dt.date.today().isoformat())[:10]
+            others = store.replicate_values(conn, site["id"], group, day, kw["sample"],
+                                            exclude_uuid=payload.get("uuid"))
+            ctx["replicate_others"] = tuple(others) if others else None
+    return ctx
