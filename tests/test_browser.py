@@ -111,3 +111,53 @@ def test_outbox_keeps_readings_while_server_is_down(browser, tmp_path):
     finally:
         ctx.close()
         srv.stop()
+
+
+def test_unit_slip_flagged_in_preview_and_fixed_with_one_tap(browser, server):
+    ctx, page = new_page(browser, PHONE)
+    page.goto(server.url + "/")
+    page.fill("#site", "Farm A well 2")
+    page.select_option("#sample", "water")
+    page.check("#compensated")
+    page.select_option("#unit", "mS/cm")
+    page.fill("#value", "350")          # irrigation water: surely 350 µS/cm
+    page.wait_for_selector("#preview li.flag[data-code='unit_slip']")
+    fix = page.locator("#preview button[data-fix-unit]")
+    assert fix.inner_text() == "Use µS/cm"
+    fix.click()
+    assert page.input_value("#unit") == "µS/cm"
+    page.wait_for_function("!document.querySelector(\"#preview li.flag[data-code='unit_slip']\")"
+                           " && document.querySelector('#preview dl.results')")
+    assert "0.35" in page.inner_text("#preview")   # 350 µS/cm = 0.35 dS/m
+    page.click("#save")
+    page.wait_for_function("document.querySelector('#saved').textContent.includes('Saved to the log')")
+    recs = page.evaluate("fetch('/api/readings?site=Farm A well 2').then(r => r.json())")
+    assert recs[0]["unit"] == "µS/cm" and "unit_slip" not in recs[0]["flags"]
+    ctx.close()
+
+
+def test_meter_profile_check_and_remembered_meter(browser, server):
+    ctx, page = new_page(browser, TABLET)
+    page.goto(server.url + "/meters")
+    page.select_option("#m-preset", label="pocket tester 0-1999 µS/cm")
+    page.fill("#m-name", "tester A")
+    page.click("#meter-form button[type=submit]")
+    page.wait_for_selector("li[data-meter='tester A']")
+    page.fill("#c-value", "1290")
+    page.fill("#c-temp_c", "20")
+    page.uncheck("#c-compensated")
+    page.click("#check-form button[type=submit]")
+    page.wait_for_function("document.querySelector('#check-result').textContent.length > 0")
+    assert page.inner_text("#check-result").startswith("Passed")
+    page.goto(server.url + "/")
+    page.fill("#site", "Block 3")
+    page.select_option("#sample", "water")
+    page.fill("#meter", "tester A")
+    page.check("#compensated")
+    page.fill("#value", "1999")
+    page.wait_for_selector("#preview li.flag[data-code='over_range']")
+    page.click("#save")
+    page.wait_for_function("document.querySelector('#saved').textContent.includes('Saved to the log')")
+    page.reload()
+    assert page.input_value("#meter") == "tester A"     # remembered for the next reading
+    ctx.close()
