@@ -51,8 +51,14 @@
   }
 
   function fmt(x, digits) {
+    // A few significant digits in plain notation (never 1.9e+3).
     if (x === null || x === undefined) return "—";
-    return Number(x).toPrecision(digits || 3).replace(/\.?0+$/, function (m) { return m.indexOf(".") >= 0 ? "" : m; });
+    x = Number(x);
+    var d = digits || 3;
+    if (x === 0) return "0";
+    var mag = Math.floor(Math.log10(Math.abs(x)));
+    var decimals = Math.max(0, d - 1 - mag);
+    return x.toFixed(Math.min(decimals, 8)).replace(/(\.\d*?)0+$/, "$1").replace(/\.$/, "");
   }
 
   function el(tag, cls, text) {
@@ -71,6 +77,7 @@
 
   function render(r) {
     preview.textContent = "";
+    renderFlags(r.flags);
     var dl = el("dl", "results");
     line(dl, "EC at 25 °C", fmt(r.ec25_dS_m, 3) + " dS/m",
          "(" + fmt(r.ec25_uS_cm, 4) + " µS/cm" +
@@ -100,9 +107,14 @@
     }
     if (r.unit_note) line(dl, "Unit", r.unit_canonical, r.unit_note);
     preview.appendChild(dl);
-    if (r.flags.length) {
+    preview.appendChild(el("p", "caution", r.cautions[0] + " " + r.cautions[1]));
+  }
+
+  var ORDER = { error: 0, warning: 1, info: 2 };
+  function renderFlags(flags) {
+    if (flags.length) {
       var ul = el("ul", "flags");
-      r.flags.forEach(function (f) {
+      flags.slice().sort(function (a, b) { return ORDER[a.severity] - ORDER[b.severity]; }).forEach(function (f) {
         var li = el("li", "flag " + f.severity);
         li.setAttribute("data-code", f.code);
         li.appendChild(el("strong", "", f.severity === "info" ? "Note" : f.severity === "warning" ? "Check" : "Problem"));
@@ -119,7 +131,6 @@
       });
       preview.appendChild(ul);
     }
-    preview.appendChild(el("p", "caution", r.cautions[0] + " " + r.cautions[1]));
   }
 
   function setUnit(u) {
