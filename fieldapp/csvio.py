@@ -28,7 +28,7 @@ COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", 
            "ratio", "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa", "meter",
            "replicate_group", "note", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
            "psi_s_method", "flags", "status", "void_reason", "voided_at", "supersedes_uuid",
-           "uuid", "visited_by", "recorded_at", "app_version")
+           "uuid", "visited_by", "recorded_at", "app_version", "flag_acks")
 NUMERIC = {"depth_cm", "value", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa",
            "ec25_dS_m", "ece_dS_m", "psi_s_MPa"}
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -61,9 +61,27 @@ def unneutralize(text: str) -> str:
     return text[1:] if text.startswith("'") and text[1:].startswith(_FORMULA_START) else text
 
 
-def row_cells(row) -> list[str]:
+def _acks_cell(acks: list[dict]) -> str:
+    """'code=note' pairs joined by ' | ' (a note's own '|' becomes '/')."""
+    return " | ".join(f"{a['code']}={a['note'].replace('|', '/')}" for a in acks)
+
+
+def _parse_acks(cell: str) -> list[tuple[str, str]]:
+    out = []
+    for part in cell.split(" | "):
+        if "=" in part:
+            code, note = part.split("=", 1)
+            if code.strip() and note.strip():
+                out.append((code.strip(), note.strip()))
+    return out
+
+
+def row_cells(row, acks: list[dict] | None = None) -> list[str]:
     cells = []
     for c in COLUMNS:
+        if c == "flag_acks":
+            cells.append(neutralize(_acks_cell(acks or [])))
+            continue
         v = row[c]
         if c in NUMERIC:
             cells.append(plain_number(v))
@@ -80,10 +98,12 @@ def export_lines(conn, site_id: int | None = None) -> Iterator[str]:
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(COLUMNS)
     yield BOM + buf.getvalue()
+    acked = store.acked_reading_ids(conn)
     for row in store.iter_readings(conn, site_id=site_id):
         buf.seek(0)
         buf.truncate()
-        w.writerow(row_cells(row))
+        acks = store.acks_for_readings(conn, [row["id"]])[row["id"]] if row["id"] in acked else None
+        w.writerow(row_cells(row, acks))
         yield buf.getvalue()
 
 
@@ -194,12 +214,17 @@ def import_rows(conn, rows: list[dict]) -> dict:
                 added += 1
             else:
                 skipped += 1
+            if r["flag_acks"]:
+                row = store.get_reading(conn, r["uuid"])
+                have = {a["code"] for a in store.acks_for_readings(conn, [row["id"]])[row["id"]]}
+                for code, note in _parse_acks(r["flag_acks"]):
+                    if code not in have:
+                        store.insert_ack(conn, row["id"], code, note)
             if r["status"] == "void":
                 row = store.get_reading(conn, r["uuid"])
                 if row["status"] == "current":
-                    conn.execute("INSERT INTO voids (reading_id, reason, voided_at) "
-                                 "VALUES (?,?,?)", (row["id"], r["void_reason"] or "void",
-                                                    r["voided_at"] or store.utc_now()))
+                    store.insert_void(conn, row["id"], r["void_reason"] or "void",
+                                      r["voided_at"] or None)
                     voids += 1
     return {"added": added, "skipped": skipped, "voided": voids}
 

@@ -425,6 +425,22 @@ def ack_flag(conn, uuid: str, code: str, note: str) -> dict:
     return acks_for_readings(conn, [row["id"]])[row["id"]]
 
 
+def acked_reading_ids(conn) -> set[int]:
+    return {r[0] for r in conn.execute("SELECT DISTINCT reading_id FROM flag_acks")}
+
+
+def insert_ack(conn, reading_id: int, code: str, note: str, acked_at: str | None = None):
+    """Low-level: one acknowledgement row (the caller holds the transaction)."""
+    conn.execute("INSERT INTO flag_acks (reading_id, code, note, acked_at) VALUES (?,?,?,?)",
+                 (reading_id, code, note, acked_at or utc_now()))
+
+
+def insert_void(conn, reading_id: int, reason: str, voided_at: str | None = None):
+    """Low-level: one void row (the caller holds the transaction and checked status)."""
+    conn.execute("INSERT INTO voids (reading_id, reason, voided_at) VALUES (?,?,?)",
+                 (reading_id, reason, voided_at or utc_now()))
+
+
 def acks_for_readings(conn, reading_ids) -> dict[int, list[dict]]:
     ids = list(reading_ids)
     out: dict[int, list[dict]] = {i: [] for i in ids}

@@ -91,7 +91,10 @@ def test_round_trip_preserves_every_field_and_merge_does_not_double(client, tmp_
             compensated=False, replicate_group="S1", taken_at="2026-04-01T08:15:00-05:00")
     add(client, value="0.9", sample="extract", ratio="1:2.5", texture="loam", unit="mS/cm",
         site="Block 4")
-    add(client, value="700", sample="water", unit="ppm", tds_factor="0.7", site="Well")
+    w = add(client, value="700", sample="water", unit="ppm", tds_factor="0.7", site="Well",
+            compensated=False)
+    assert client.post(f"/api/readings/{w['uuid']}/ack", json={
+        "code": "temperature_unknown", "note": "sample at air temp, about 25"}).status_code == 201
     client.post(f"/api/readings/{a['uuid']}/correct", json={"value": "4.0"})
     first = export_text(client)
 
@@ -105,6 +108,8 @@ def test_round_trip_preserves_every_field_and_merge_does_not_double(client, tmp_
     second = other.test_client().get("/export.csv").get_data(as_text=True)
     strip = lambda t: [{k: v for k, v in r.items() if k != "recorded_at"} for r in parse(t)]
     assert strip(second) == strip(first)
+    assert any(r["flag_acks"] == "temperature_unknown=sample at air temp, about 25"
+               for r in parse(second))
     # recorded_at is kept as well
     assert [r["recorded_at"] for r in parse(second)] == [r["recorded_at"] for r in parse(first)]
 
