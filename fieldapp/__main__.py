@@ -146,7 +146,7 @@ def cmd_serve(a) -> int:
     import waitress
     from . import create_app, demo, store
     try:
-        app = create_app({"DATA_DIR": _data_dir(a)})
+        app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
     if a.demo:
@@ -253,6 +253,9 @@ def build_parser() -> argparse.ArgumentParser:
     sv.add_argument("--port", type=int, default=8080)
     sv.add_argument("--data", help="folder for the log (default: your user data folder)")
     sv.add_argument("--demo", action="store_true", help="load an invented demo scenario")
+    sv.add_argument("--check-days", type=float, default=7.0,
+                    help="flag readings from a meter whose last calibration check is older "
+                         "than this many days (default 7)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)
 
