@@ -8,7 +8,7 @@ from __future__ import annotations
 import datetime as dt
 import uuid
 
-from . import records, store
+from . import meters, records, store
 
 SITES = [
     {"name": "Farm A Block 3", "crop": "Tomato", "texture": "clay loam", "kind": "field",
@@ -43,6 +43,30 @@ READINGS = [
 ]
 
 
+#: Demo meters (generic types) and their checks: days ago, value shown, °C, compensated.
+METERS = [
+    ("tester A", "pocket tester 0-1999 µS/cm", [(30, 1405, 25, True), (2, 1420, 25, True)]),
+    ("tester B", "pocket tester 0.00-20.00 mS/cm", [(20, 1.41, 25, True), (1, 1.55, 25, True)]),
+    ("handheld 1", "handheld 4-range 0-200 mS/cm", [(100, 1398, 25, True)]),
+]
+_METER_FOR_UNIT = {"µS/cm": "tester A", "mS/cm": "tester B"}
+
+
+def _load_meters(conn, today: dt.date) -> None:
+    presets = {p["name"]: p for p in meters.presets()}
+    for name, preset, checks in METERS:
+        if store.get_meter(conn, name) is not None:
+            continue
+        m = store.insert_meter(conn, meters.validate_meter({**presets[preset], "name": name}))
+        unit = m["units"][0]
+        for days, value, temp, comp in checks:
+            c = meters.calibration_check({"standard": "kcl_0.01", "value": value, "unit": unit,
+                                          "temp_c": temp, "compensated": comp}, m)
+            when = dt.datetime.combine(today - dt.timedelta(days=days), dt.time(8, 0))
+            c["checked_at"] = when.astimezone(dt.timezone.utc).isoformat(timespec="seconds")
+            store.insert_calibration(conn, c)
+
+
 def load(conn, today: dt.date | None = None) -> int:
     """Add the demo sites and readings; returns how many readings were added.
     Running it twice adds nothing the second time."""
@@ -51,13 +75,14 @@ def load(conn, today: dt.date | None = None) -> int:
         for s in SITES:
             attrs = {k: v for k, v in s.items() if k != "name"}
             store.ensure_site(conn, s["name"], **attrs)
+    _load_meters(conn, today)
     added = 0
     for i, (site, days, sample, value, unit, extra) in enumerate(READINGS):
         when = dt.datetime.combine(today - dt.timedelta(days=days), dt.time(9, 0)).astimezone()
         payload = {"uuid": str(uuid.uuid5(uuid.NAMESPACE_URL, f"fieldapp-demo-{i}")),
                    "site": site, "sample": sample, "value": value, "unit": unit,
                    "taken_at": when.replace(minute=5 * (i % 12)).isoformat(),
-                   "meter": "demo pocket tester", "visited_by": "demo", **extra}
+                   "meter": _METER_FOR_UNIT.get(unit), "visited_by": "demo", **extra}
         _, created = records.save_reading(conn, payload)
         added += created
     return added

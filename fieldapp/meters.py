@@ -188,6 +188,18 @@ def _range_for(meter: dict, ec_dS_m: float, tds_factor):
     return overall_min, rs[-1][1], rs[-1][2]
 
 
+def _taken_utc(taken_at, now=None) -> dt.datetime:
+    if taken_at:
+        try:
+            t = dt.datetime.fromisoformat(str(taken_at).strip().replace("Z", "+00:00"))
+            if t.tzinfo is None:
+                t = t.astimezone()
+            return t.astimezone(dt.timezone.utc)
+        except ValueError:
+            pass   # the record's own validation reports a bad time
+    return now or dt.datetime.now(dt.timezone.utc)
+
+
 def reading_context(conn, kw: dict, payload: dict, site, max_age_days: float,
                     now: dt.datetime | None = None) -> dict:
     """Context columns for one reading: meter, calibration, history, replicates."""
@@ -211,14 +223,16 @@ def reading_context(conn, kw: dict, payload: dict, site, max_age_days: float,
             ctx["meter_temp_min_c"] = meter["atc_min_c"]
         if meter.get("atc_max_c") is not None:
             ctx["meter_temp_max_c"] = meter["atc_max_c"]
-        last = store.last_calibration(conn, meter["id"])
+        # the check that was valid when the reading was taken, and its age then
+        taken = _taken_utc(payload.get("taken_at"), now)
+        last = store.last_calibration(conn, meter["id"],
+                                      before_utc=taken.isoformat(timespec="seconds"))
         ctx["cal_max_age_days"] = max_age_days
         if last is not None:
             ctx["cal_passed"] = 1.0 if last["passed"] else 0.0
             ctx["cal_deviation_pct"] = last["deviation_pct"]
             checked = dt.datetime.fromisoformat(last["checked_at"])
-            now = now or dt.datetime.now(dt.timezone.utc)
-            ctx["cal_age_days"] = max(0.0, (now - checked).total_seconds() / 86400.0)
+            ctx["cal_age_days"] = max(0.0, (taken - checked).total_seconds() / 86400.0)
     if site is not None:
         hist = store.history_values(conn, site["id"], kw["sample"],
                                     parse_number(payload.get("depth_cm"), "depth_cm"),

@@ -364,9 +364,11 @@ def _cal_dict(row) -> dict:
     return d
 
 
-def last_calibration(conn, meter_id: int) -> dict | None:
-    row = conn.execute("SELECT * FROM calibrations WHERE meter_id = ? "
-                       "ORDER BY checked_at DESC, id DESC LIMIT 1", (meter_id,)).fetchone()
+def last_calibration(conn, meter_id: int, before_utc: str | None = None) -> dict | None:
+    """The newest check of a meter (at or before ``before_utc``, an ISO UTC time)."""
+    row = conn.execute("SELECT * FROM calibrations WHERE meter_id = ? AND checked_at <= ? "
+                       "ORDER BY checked_at DESC, id DESC LIMIT 1",
+                       (meter_id, before_utc or "9999")).fetchone()
     return None if row is None else _cal_dict(row)
 
 

@@ -47,6 +47,7 @@
     }).catch(function () { $("merr-form").textContent = "No connection to the server."; });
   });
 
+  if (!$("check-form")) return;   // no meter yet: only the "add" form is shown
   $("c-standard").addEventListener("change", function () { $("c-user").hidden = this.value !== "user"; });
 
   $("check-form").addEventListener("submit", function (ev) {

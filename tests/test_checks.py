@@ -256,3 +256,15 @@ def test_cli_meter_range_and_resolution():
                           "--meter-range", "5"], capture_output=True, text=True, cwd=root,
                          env=dict(os.environ, PYTHONPATH=str(root)))
     assert bad.returncode == 2 and "MIN:MAX" in bad.stderr
+
+
+def test_calibration_flag_uses_the_check_valid_when_the_reading_was_taken(client):
+    client.post("/api/meters", json={"preset": "pocket tester 0-1999 µS/cm", "name": "t"})
+    client.post("/api/calibrations", json={"meter": "t", "value": "1600", "unit": "µS/cm",
+                                           "compensated": True})          # fails today
+    r = {"site": "B", **WATER, "value": "900", "unit": "µS/cm", "meter": "t"}
+    before = client.post("/api/preview", json={**r, "taken_at": "2020-01-01T09:00"}).get_json()
+    now = client.post("/api/preview", json=r).get_json()
+    assert "calibration_drift" in {f["code"] for f in now["flags"]}
+    codes_before = {f["code"] for f in before["flags"]}
+    assert "calibration_drift" not in codes_before and "calibration_stale" in codes_before
