@@ -7,9 +7,9 @@
   var saved = document.getElementById("saved");
   var FIELDS = ["site", "sample", "value", "unit", "tds_factor", "ratio", "sp", "texture",
                 "depth_cm", "temp_c", "meter", "replicate_group", "crop", "theta_g_pct",
-                "matric_MPa", "note"];
+                "matric_MPa", "note", "visited_by"];
   var KEEP = ["site", "sample", "unit", "meter", "tds_factor", "ratio", "texture", "sp",
-              "temp_c", "compensated", "crop"];
+              "temp_c", "compensated", "crop", "visited_by"];
   var TDS_UNITS = ["ppm", "mg/L", "ppt", "g/L"];
   var LAST = "fieldapp.form.v1";
   var timer = null, seq = 0;
