@@ -71,7 +71,9 @@ def site_log(site_id):
     acks = store.acks_for_readings(db, [r["id"] for r in readings])
     for r in readings:
         r["acks"] = {a["code"]: a for a in acks[r["id"]]}
+    from .views import site_view  # the summary and charts at the top of the log
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
+                           summary=site_view(db, site),
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
                            date_from=date_from or "", date_to=date_to or "")
 

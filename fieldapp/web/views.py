@@ -1,0 +1,227 @@
+"""Site views: what the readings mean (summary, charts), the printable visit
+report, the offline map, and the user's target ranges.
+
+Thin like the other blueprints: the numbers come from ``interpret`` (pure),
+the pictures from ``charts`` (pure SVG), the rows from ``store``.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+from flask import Blueprint, abort, jsonify, render_template, request, url_for
+from markupsafe import Markup
+
+from .. import charts, interpret, store
+from ..science import InputError, extracts, osmotic, tolerance
+from . import get_db
+
+bp = Blueprint("views", __name__)
+
+#: Distances are listed as a full table up to this many sites; beyond, each
+#: site lists its nearest neighbours.
+MATRIX_MAX_SITES = 10
+
+
+def _site_readings(db, site_id: int) -> list[dict]:
+    rows = store.list_readings(db, site_id=site_id, newest_first=False)
+    return [store.reading_dict(r) for r in rows]
+
+
+def _svg(s: str) -> Markup | None:
+    # charts.* escape every piece of text they place, so the string is safe markup.
+    return Markup(s) if s else None
+
+
+def _chart_figures(specs: list[dict]) -> list[dict]:
+    return [{"id": s["id"], "title": s["title"], "svg": _svg(charts.trend_svg(s)),
+             "bands_source": s.get("bands_source"), "n_points": sum(len(x["points"])
+                                                                     for x in s["series"])}
+            for s in specs]
+
+
+def site_view(db, site) -> dict:
+    """Everything the summary partial at the top of the site log shows."""
+    site = dict(site)
+    readings = _site_readings(db, site["id"])
+    crop = interpret.site_crop(site)
+    targets = store.list_targets(db, crop.name) if crop else []
+    summary = interpret.site_summary(site, readings, targets)
+    prof = interpret.profile_spec(site, readings)
+    visits = store.visits_for_site(db, site["id"])
+    return {
+        "s": summary,
+        "charts": _chart_figures(interpret.chart_specs(site, readings, targets)),
+        "profile": prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))},
+        "targets": targets,
+        "measures": interpret.TARGET_MEASURES,
+        "crop": crop.name if crop else None,
+        "report_url": url_for("views.report", site_id=site["id"]),
+        "map_url": url_for("views.map_page"),
+        "has_visits": bool(visits),
+        "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
+    }
+
+
+# --------------------------------------------------------------------------
+# visit report
+# --------------------------------------------------------------------------
+
+def _report_cautions(readings) -> list[str]:
+    out = list(interpret.CAUTIONS)
+    kinds = {r["sample"] for r in readings}
+    if kinds & {"paste", "extract"}:
+        out.append(extracts.ESTIMATE_CAUTION)
+    out.append(osmotic.CAUTION)
+    if "water" in kinds:
+        out.append(tolerance.LEACHING_CAUTION)
+    return list(dict.fromkeys(out))
+
+
+@bp.get("/sites/<int:site_id>/report")
+def report(site_id):
+    """A printable page for one visit (``?visit=<id>``; the latest by default)."""
+    db = get_db()
+    site = store.get_site(db, site_id)
+    if site is None:
+        abort(404)
+    site = dict(site)
+    visits = store.visits_for_site(db, site_id)
+    visit = None
+    arg = request.args.get("visit")
+    if arg:
+        try:
+            visit = store.get_visit(db, int(arg))
+        except ValueError:
+            visit = None
+        if visit is None or visit["site_id"] != site_id:
+            abort(404)
+    elif visits:
+        visit = store.get_visit(db, visits[0]["id"])
+    readings, summary, figures, profile = [], None, [], None
+    if visit is not None:
+        rows = store.readings_for_visit(db, visit["id"])
+        readings = [store.reading_dict(r) for r in rows]
+        acks = store.acks_for_readings(db, [r["id"] for r in readings])
+        for r in readings:
+            r["acks"] = {a["code"]: a for a in acks.get(r["id"], [])}
+            r["sample_label"] = extracts.SAMPLE_KINDS.get(r["sample"]).label \
+                if r["sample"] in extracts.SAMPLE_KINDS else r["sample"]
+        all_readings = _site_readings(db, site_id)
+        crop = interpret.site_crop(site)
+        targets = store.list_targets(db, crop.name) if crop else []
+        day = visit["visit_date"]
+        summary = interpret.site_summary(site, all_readings, targets, as_of=day)
+        figures = _chart_figures(interpret.chart_specs(site, all_readings, targets, as_of=day,
+                                                       highlight=day))
+        prof = interpret.profile_spec(site, all_readings, day=day)
+        profile = prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))}
+    sv = None
+    if summary is not None:
+        sv = {"s": summary, "charts": figures, "profile": profile, "targets": [],
+              "measures": interpret.TARGET_MEASURES, "crop": None, "in_report": True,
+              "heading": "Interpretation at this visit",
+              "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m}
+    return render_template(
+        "report.html", site=site, visit=visit, visits=visits, readings=readings,
+        summary=sv,
+        cautions=_report_cautions(readings),
+        printed_at=dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M"),
+        status_counts={k: sum(1 for r in readings if r["status"] == k)
+                       for k in ("current", "corrected", "void")})
+
+
+# --------------------------------------------------------------------------
+# map
+# --------------------------------------------------------------------------
+
+def map_data(site_rows) -> dict:
+    placed, unplaced = [], []
+    for s in site_rows:
+        if s["latitude"] is not None and s["longitude"] is not None:
+            placed.append({"id": s["id"], "name": s["name"], "lat": s["latitude"],
+                           "lon": s["longitude"], "n": len(placed) + 1, "kind": s["kind"],
+                           "url": url_for("pages.site_log", site_id=s["id"])})
+        else:
+            unplaced.append({"id": s["id"], "name": s["name"],
+                             "url": url_for("pages.site_log", site_id=s["id"])})
+    matrix = charts.distance_matrix(placed)
+    nearest = []
+    for i, s in enumerate(placed):
+        # by distance, then by number: two sites may share a position
+        others = sorted(((matrix[i][j], placed[j]) for j in range(len(placed)) if j != i),
+                        key=lambda e: (e[0], e[1]["n"]))
+        nearest.append([{"name": o["name"], "n": o["n"], "km": d,
+                         "text": charts.format_distance(d)} for d, o in others[:3]])
+    return {
+        "placed": placed, "unplaced": unplaced,
+        "svg": _svg(charts.map_svg(placed)),
+        "matrix": [[charts.format_distance(d) for d in row] for row in matrix],
+        "show_matrix": 1 < len(placed) <= MATRIX_MAX_SITES,
+        "nearest": nearest,
+        "wide": (max((max(r) for r in matrix), default=0.0) > 200.0),
+    }
+
+
+@bp.get("/map")
+def map_page():
+    db = get_db()
+    sites = store.list_sites(db)
+    data = map_data(sites)
+    return render_template("map.html", m=data, all_sites=sites,
+                           points=[{k: p[k] for k in ("n", "name", "lat", "lon", "id")}
+                                   for p in data["placed"]])
+
+
+# --------------------------------------------------------------------------
+# JSON
+# --------------------------------------------------------------------------
+
+@bp.get("/api/sites/<int:site_id>/summary")
+def summary_json(site_id):
+    """Where the site stands (interpretation of its current readings) and the
+    data of its charts. ``?as_of=YYYY-MM-DD`` for the state at an earlier day."""
+    db = get_db()
+    site = store.get_site(db, site_id)
+    if site is None:
+        raise store.StoreError("No such site.", "site", 404)
+    site = dict(site)
+    as_of = request.args.get("as_of") or None
+    if as_of:
+        try:
+            dt.date.fromisoformat(as_of)
+        except ValueError:
+            raise InputError("as_of must be a date like 2026-05-14.", "as_of") from None
+    readings = _site_readings(db, site_id)
+    crop = interpret.site_crop(site)
+    targets = store.list_targets(db, crop.name) if crop else []
+    out = interpret.site_summary(site, readings, targets, as_of=as_of)
+    out["charts"] = interpret.chart_specs(site, readings, targets, as_of=as_of)
+    out["profile"] = interpret.profile_spec(site, readings, day=as_of)
+    out["visits"] = [dict(v) for v in store.visits_for_site(db, site_id)]
+    return jsonify(out)
+
+
+@bp.get("/api/targets")
+def list_targets():
+    crop = request.args.get("crop") or None
+    if crop:
+        crop = tolerance.find_crop(crop).name
+    return jsonify(store.list_targets(get_db(), crop))
+
+
+@bp.post("/api/targets")
+def save_target():
+    """Keep (or replace) the user's target range for a crop and a measure."""
+    body = request.get_json(silent=True)
+    if body is None:
+        raise InputError("Send the target as a JSON object.", "body")
+    t = interpret.validate_target(body)
+    row, created = store.save_target(get_db(), t)
+    return jsonify(row), 201 if created else 200
+
+
+@bp.delete("/api/targets/<int:target_id>")
+def delete_target(target_id):
+    if not store.delete_target(get_db(), target_id):
+        raise store.StoreError("No such target.", "target", 404)
+    return jsonify(deleted=target_id)
