@@ -47,6 +47,10 @@ def create_app(config: dict | None = None):
     store.connect(app.config["DATABASE"]).close()  # migrate now, fail early
 
     register_common(app)
+    from .web.security import register_security
+    register_security(app)   # headers, CSRF, LAN pairing (config LAN=True), /pair
     app.register_blueprint(pages.bp)
     app.register_blueprint(api.bp)
+    from .web import views
+    app.register_blueprint(views.bp)
     return app

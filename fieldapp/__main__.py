@@ -145,8 +145,12 @@ def _open_store(a):
 def cmd_serve(a) -> int:
     import waitress
     from . import create_app, demo, store
+    from .web.security import binds_to_network, start_lan
+    bind = a.host or ("0.0.0.0" if a.lan else "127.0.0.1")
+    lan = a.lan or binds_to_network(bind)      # never on the network without pairing
     try:
-        app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days})
+        app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days,
+                          "LAN": lan})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
     if a.demo:
@@ -156,12 +160,14 @@ def cmd_serve(a) -> int:
         finally:
             conn.close()
         print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
-    host = "localhost" if a.host in ("127.0.0.1", "::1") else a.host
     print(f"fieldapp {__import__('fieldapp').__version__}: log in {app.config['DATABASE']}",
           flush=True)
-    print(f"Open http://{host}:{a.port}/ in a browser (Ctrl+C stops).", flush=True)
-    waitress.serve(app, host=a.host, port=a.port, threads=a.threads, ident="fieldapp",
-                   _quiet=True)
+    if lan:
+        print("\n".join(start_lan(app, bind, a.port)), flush=True)
+    print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
+          flush=True)
+    waitress.serve(app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
+                   max_request_body_size=app.config["MAX_CONTENT_LENGTH"], _quiet=True)
     return 0
 
 
@@ -248,8 +254,12 @@ def build_parser() -> argparse.ArgumentParser:
     cc.set_defaults(func=cmd_convert_csv)
 
     sv = sub.add_parser("serve", help="start the local web app")
-    sv.add_argument("--host", default="127.0.0.1",
-                    help="address to listen on (default 127.0.0.1: this machine only)")
+    sv.add_argument("--host", default=None,
+                    help="address to listen on (default 127.0.0.1: this machine only; "
+                         "with --lan every address)")
+    sv.add_argument("--lan", action="store_true",
+                    help="share the log with tablets on this network; they pair once with "
+                         "a code shown here")
     sv.add_argument("--port", type=int, default=8080)
     sv.add_argument("--data", help="folder for the log (default: your user data folder)")
     sv.add_argument("--demo", action="store_true", help="load an invented demo scenario")
@@ -258,6 +268,8 @@ def build_parser() -> argparse.ArgumentParser:
                          "than this many days (default 7)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)
+    from .backup import add_commands as add_backup_commands
+    add_backup_commands(sub)                    # backup, restore
 
     ex = sub.add_parser("export", help="write the log (or one site) as CSV")
     ex.add_argument("--site", help="only this site")

@@ -496,3 +496,157 @@ def reading_dict(row: sqlite3.Row) -> dict:
     d["flags"] = [c for c in (row["flags"] or "").split(";") if c]
     d["result"] = json.loads(row["result_json"])
     return d
+
+
+# ---- site views
+
+def visits_for_site(conn, site_id: int) -> list[sqlite3.Row]:
+    """The site's visits, newest first, with how many readings (all versions)
+    and how many current ones each holds."""
+    return conn.execute("""
+        SELECT v.id, v.site_id, v.visit_date, v.visited_by,
+               COUNT(r.id) AS n_readings,
+               SUM(CASE WHEN st.status = 'current' THEN 1 ELSE 0 END) AS n_current
+        FROM visits v
+        JOIN readings r ON r.visit_id = v.id
+        JOIN reading_status st ON st.id = r.id
+        WHERE v.site_id = ?
+        GROUP BY v.id
+        ORDER BY v.visit_date DESC, v.id DESC""", (site_id,)).fetchall()
+
+
+def get_visit(conn, visit_id: int) -> sqlite3.Row | None:
+    return conn.execute("SELECT * FROM visits WHERE id = ?", (visit_id,)).fetchone()
+
+
+def readings_for_visit(conn, visit_id: int) -> list[sqlite3.Row]:
+    """Every reading of a visit (current, corrected and void), in the order taken."""
+    return conn.execute(_READING_SELECT + " WHERE r.visit_id = ? ORDER BY r.taken_at, r.id",
+                        (visit_id,)).fetchall()
+
+
+def list_targets(conn, crop: str | None = None) -> list[dict]:
+    """The user's target ranges, optionally for one crop."""
+    sql, args = "SELECT * FROM targets", ()
+    if crop:
+        sql, args = sql + " WHERE crop = ?", (crop,)
+    return [dict(r) for r in conn.execute(sql + " ORDER BY crop COLLATE NOCASE, measure", args)]
+
+
+def save_target(conn, t: dict) -> tuple[dict, bool]:
+    """Insert or replace the target of (crop, measure); returns (row, created)."""
+    with transaction(conn):
+        old = conn.execute("SELECT id FROM targets WHERE crop = ? AND measure = ?",
+                           (t["crop"], t["measure"])).fetchone()
+        conn.execute(
+            "INSERT INTO targets (crop, measure, lo_dS_m, hi_dS_m, note, updated_at) "
+            "VALUES (?,?,?,?,?,?) ON CONFLICT (crop, measure) DO UPDATE SET "
+            "lo_dS_m = excluded.lo_dS_m, hi_dS_m = excluded.hi_dS_m, note = excluded.note, "
+            "updated_at = excluded.updated_at",
+            (t["crop"], t["measure"], t.get("lo_dS_m"), t.get("hi_dS_m"), t.get("note") or "",
+             utc_now()))
+        row = conn.execute("SELECT * FROM targets WHERE crop = ? AND measure = ?",
+                           (t["crop"], t["measure"])).fetchone()
+    return dict(row), old is None
+
+
+def delete_target(conn, target_id: int) -> bool:
+    """Remove a target range (a setting, not a reading); False if none."""
+    with transaction(conn):
+        cur = conn.execute("DELETE FROM targets WHERE id = ?", (target_id,))
+    return cur.rowcount > 0
+
+
+# ---- pairing/backup
+
+def active_pairing_codes(conn, now: str) -> list[sqlite3.Row]:
+    """Pairing codes neither revoked nor expired at ``now`` (UTC ISO 8601)."""
+    return conn.execute("SELECT * FROM pairing_codes WHERE revoked_at IS NULL AND "
+                        "expires_at > ? ORDER BY id DESC", (now,)).fetchall()
+
+
+def insert_pairing_code(conn, code: str, expires_at: str,
+                        replace_active: bool = True) -> sqlite3.Row:
+    """A new pairing code; by default the codes still active are revoked, so
+    one code is valid at a time."""
+    now = utc_now()
+    with transaction(conn):
+        if replace_active:
+            conn.execute("UPDATE pairing_codes SET revoked_at = ? WHERE revoked_at IS NULL",
+                         (now,))
+        cur = conn.execute("INSERT INTO pairing_codes (code, created_at, expires_at) "
+                           "VALUES (?,?,?)", (code, now, expires_at))
+    return conn.execute("SELECT * FROM pairing_codes WHERE id = ?", (cur.lastrowid,)).fetchone()
+
+
+def revoke_pairing_codes(conn, code_id: int | None = None) -> int:
+    """Revoke one code, or every code still open; returns how many."""
+    with transaction(conn):
+        if code_id is None:
+            cur = conn.execute("UPDATE pairing_codes SET revoked_at = ? "
+                               "WHERE revoked_at IS NULL", (utc_now(),))
+        else:
+            cur = conn.execute("UPDATE pairing_codes SET revoked_at = ? "
+                               "WHERE id = ? AND revoked_at IS NULL", (utc_now(), code_id))
+    return cur.rowcount
+
+
+def insert_device(conn, token_sha256: str, label: str, user_agent: str, address: str,
+                  code_id: int | None) -> sqlite3.Row:
+    now = utc_now()
+    with transaction(conn):
+        cur = conn.execute(
+            "INSERT INTO paired_devices (token_sha256, label, user_agent, address, code_id, "
+            "paired_at, last_seen_at) VALUES (?,?,?,?,?,?,?)",
+            (token_sha256, label, user_agent, address, code_id, now, now))
+    return conn.execute("SELECT * FROM paired_devices WHERE id = ?",
+                        (cur.lastrowid,)).fetchone()
+
+
+def device_by_token(conn, token_sha256: str) -> sqlite3.Row | None:
+    """The paired device holding this token, unless it was unpaired."""
+    return conn.execute("SELECT * FROM paired_devices WHERE token_sha256 = ? AND "
+                        "revoked_at IS NULL", (token_sha256,)).fetchone()
+
+
+def touch_device(conn, device_id: int, address: str) -> None:
+    with transaction(conn):
+        conn.execute("UPDATE paired_devices SET last_seen_at = ?, address = ? WHERE id = ?",
+                     (utc_now(), address, device_id))
+
+
+def list_devices(conn) -> list[sqlite3.Row]:
+    return conn.execute("SELECT * FROM paired_devices ORDER BY revoked_at IS NOT NULL, "
+                        "paired_at DESC").fetchall()
+
+
+def revoke_devices(conn, device_id: int | None = None) -> int:
+    """Unpair one device, or every paired device; returns how many."""
+    with transaction(conn):
+        if device_id is None:
+            cur = conn.execute("UPDATE paired_devices SET revoked_at = ? "
+                               "WHERE revoked_at IS NULL", (utc_now(),))
+        else:
+            cur = conn.execute("UPDATE paired_devices SET revoked_at = ? "
+                               "WHERE id = ? AND revoked_at IS NULL", (utc_now(), device_id))
+    return cur.rowcount
+
+
+def integrity_problems(conn, quick: bool = False) -> list[str]:
+    """SQLite's own check of every page and index; an empty list means sound."""
+    rows = conn.execute("PRAGMA quick_check" if quick else "PRAGMA integrity_check").fetchall()
+    found = [r[0] for r in rows]
+    return [] if found == ["ok"] else found
+
+
+def log_summary(conn) -> dict:
+    """What a log holds, to tell a user what a backup or restore carries."""
+    tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+    if "readings" not in tables or "sites" not in tables:
+        raise StoreError("This is not a fieldapp log (no readings table).", "file")
+    return {
+        "schema": conn.execute("PRAGMA user_version").fetchone()[0],
+        "readings": conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0],
+        "sites": conn.execute("SELECT COUNT(*) FROM sites").fetchone()[0],
+        "newest": conn.execute("SELECT MAX(recorded_at) FROM readings").fetchone()[0],
+    }

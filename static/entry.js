@@ -220,7 +220,9 @@
         showError(refused.refused.field || "form", refused.refused.error);
         return;  // the form still shows what was typed; fix and save again
       } else if (waiting) {
-        saved.textContent = "No connection: the reading waits on this device and will be sent.";
+        saved.textContent = window.fieldappOutbox.lastError
+          ? "Not in the log yet: " + window.fieldappOutbox.lastError + " It waits on this device."
+          : "No connection: the reading waits on this device and will be sent.";
       }
       $("value").value = ""; $("note").value = ""; $("replicate_group").value = "";
       correcting = null; $("correcting").hidden = true; $("form-title").textContent = "New reading";

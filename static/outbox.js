@@ -97,12 +97,20 @@
             results.push({ ok: false, item: item });
             return next(i + 1);
           }
-          throw new Error("server " + resp.status);   // keep it, try later
+          var err = new Error("server " + resp.status);   // keep it, try later
+          err.serverMessage = body.error || null;        // e.g. disk full, not paired
+          throw err;
         });
       });
     }
-    return next(0).catch(function () { /* offline or server trouble: retry later */ })
-      .then(function () { sending = false; notify(); return results; });
+    var trouble = null;
+    return next(0).catch(function (e) { trouble = (e && e.serverMessage) || null; })
+      .then(function () {
+        sending = false; window.fieldappOutbox.lastError = trouble; notify();
+        var badge = document.getElementById("outbox-badge");
+        if (badge && trouble) { badge.textContent += " — " + trouble; badge.hidden = false; badge.className = "badge bad"; }
+        return results;
+      });
   }
 
   window.fieldappOutbox = {

@@ -60,10 +60,22 @@ def register_common(app):
     @app.errorhandler(sqlite3.OperationalError)
     def _db_error(e):
         app.logger.exception("database error")
-        msg = str(e)
-        if "readonly" in msg or "disk" in msg or "full" in msg:
-            text = ("The log could not be written (disk full or read-only). Your reading is "
-                    "kept on this device and will be sent again.")
+        msg, cause = str(e), e.__context__
+        while cause is not None:     # a failed ROLLBACK hides the error that caused it
+            msg, cause = msg + " " + str(cause), cause.__context__
+        import os
+        import shutil
+        folder = os.path.dirname(current_app.config["DATABASE"])
+        if "readonly" in msg or not os.access(folder, os.W_OK):
+            text = ("The log could not be written: its folder on the laptop is read-only. "
+                    "Your reading is kept on this device and will be sent again.")
+        elif "full" in msg or ("disk" in msg and shutil.disk_usage(folder).free < 1 << 22):
+            # a full disk may also show as a disk I/O error while writing the journal
+            text = ("The log could not be written: the laptop's disk is full. Free some space; "
+                    "your reading is kept on this device and will be sent again.")
+        elif "disk" in msg:
+            text = ("The log could not be written (disk error). Your reading is kept on this "
+                    "device and will be sent again.")
         else:
             text = "The log is busy or unavailable; your reading is kept and will be sent again."
         return jsonify(error=text, field=None), 503
