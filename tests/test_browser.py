@@ -43,7 +43,7 @@ def test_enter_preview_save_log_and_csv(browser, server, size, tmp_path):
     assert "laboratory" in text
     assert page.get_attribute("#value", "inputmode") == "decimal"
     page.click("#save")
-    page.wait_for_function("document.querySelector('#saved').textContent.includes('Saved to the log')")
+    page.wait_for_function("() => document.querySelector('#saved').textContent.includes('Saved to the log')")
     # the form keeps site, kind and unit for the next reading, clears the value
     assert page.input_value("#site") == "Block 3"
     assert page.input_value("#sample") == "extract"
@@ -72,10 +72,10 @@ def test_bad_value_shows_message_beside_field_and_keeps_typing(browser, server):
     page.goto(server.url + "/")
     page.fill("#site", "Block 3")
     page.fill("#value", "12abc")
-    page.wait_for_function("document.querySelector('#err-value').textContent.length > 0")
+    page.wait_for_function("() => document.querySelector('#err-value').textContent.length > 0")
     assert "not a number" in page.inner_text("#err-value")
     page.click("#save")
-    page.wait_for_function("document.querySelector('#err-value').textContent.length > 0")
+    page.wait_for_function("() => document.querySelector('#err-value').textContent.length > 0")
     assert page.input_value("#value") == "12abc"
     assert page.input_value("#site") == "Block 3"
     ctx.close()
@@ -96,12 +96,12 @@ def test_outbox_keeps_readings_while_server_is_down(browser, tmp_path):
             page.fill("#value", v)
             page.click("#save")
             page.wait_for_function(
-                "document.querySelector('#saved').textContent.includes('waits on this device')")
+                "() => document.querySelector('#saved').textContent.includes('waits on this device')")
         assert "2 readings wait" in page.inner_text("#outbox-badge")
         page.reload(wait_until="domcontentloaded")  # the page's own copy survives a reload
-        page.wait_for_function("document.querySelector('#outbox-badge').textContent.includes('2 readings wait')")
+        page.wait_for_function("() => document.querySelector('#outbox-badge').textContent.includes('2 readings wait')")
         srv.start()                                 # same port, same log
-        page.wait_for_function("document.querySelector('#outbox-badge').hidden", timeout=20000)
+        page.wait_for_function("() => document.querySelector('#outbox-badge').hidden", timeout=20000)
         recs = page.evaluate("fetch('/api/readings?site=Bench 4').then(r => r.json())")
         assert sorted(r["value"] for r in recs) == [2.1, 2.4]
         # a second flush sends nothing twice
@@ -126,11 +126,11 @@ def test_unit_slip_flagged_in_preview_and_fixed_with_one_tap(browser, server):
     assert fix.inner_text() == "Use µS/cm"
     fix.click()
     assert page.input_value("#unit") == "µS/cm"
-    page.wait_for_function("!document.querySelector(\"#preview li.flag[data-code='unit_slip']\")"
+    page.wait_for_function("() => !document.querySelector(\"#preview li.flag[data-code='unit_slip']\")"
                            " && document.querySelector('#preview dl.results')")
     assert "0.35" in page.inner_text("#preview")   # 350 µS/cm = 0.35 dS/m
     page.click("#save")
-    page.wait_for_function("document.querySelector('#saved').textContent.includes('Saved to the log')")
+    page.wait_for_function("() => document.querySelector('#saved').textContent.includes('Saved to the log')")
     recs = page.evaluate("fetch('/api/readings?site=Farm A well 2').then(r => r.json())")
     assert recs[0]["unit"] == "µS/cm" and "unit_slip" not in recs[0]["flags"]
     ctx.close()
@@ -147,7 +147,7 @@ def test_meter_profile_check_and_remembered_meter(browser, server):
     page.fill("#c-temp_c", "20")
     page.uncheck("#c-compensated")
     page.click("#check-form button[type=submit]")
-    page.wait_for_function("document.querySelector('#check-result').textContent.length > 0")
+    page.wait_for_function("() => document.querySelector('#check-result').textContent.length > 0")
     assert page.inner_text("#check-result").startswith("Passed")
     page.goto(server.url + "/")
     page.fill("#site", "Block 3")
@@ -157,7 +157,7 @@ def test_meter_profile_check_and_remembered_meter(browser, server):
     page.fill("#value", "1999")
     page.wait_for_selector("#preview li.flag[data-code='over_range']")
     page.click("#save")
-    page.wait_for_function("document.querySelector('#saved').textContent.includes('Saved to the log')")
+    page.wait_for_function("() => document.querySelector('#saved').textContent.includes('Saved to the log')")
     page.reload()
     assert page.input_value("#meter") == "tester A"     # remembered for the next reading
     ctx.close()

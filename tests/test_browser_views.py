@@ -153,7 +153,7 @@ def test_target_range_kept_from_the_site_page(browser, demo):
     page.fill("#t-lo", "2.0")
     page.fill("#t-hi", "1.5")
     page.click("text=Save target")
-    page.wait_for_function("document.querySelector('#err-target').textContent.length > 0")
+    page.wait_for_function("() => document.querySelector('#err-target').textContent.length > 0")
     assert "upper limit" in page.inner_text("#err-target")
     assert page.input_value("#t-lo") == "2.0" and page.input_value("#t-hi") == "1.5"
     page.fill("#t-hi", "2.2")

@@ -71,14 +71,11 @@ FAIL_WINDOW_S = 600
 JSON_BODY_MAX = 1024 * 1024                  # a reading is a few hundred bytes
 TOUCH_EVERY_S = 300                          # how often "last seen" is written
 
-#: Nothing from another origin, no inline script or style, no plugins, no
-#: framing. 'unsafe-eval' is there only because the browser tests wait with
-#: Playwright's wait_for_function("expression"), which evaluates the string in
-#: the page on every poll; written as "() => expression" they need no eval,
-#: and then 'unsafe-eval' should go. The page's own scripts never evaluate
-#: strings.
+#: Nothing from another origin, no inline script or style, no eval, no
+#: plugins, no framing. (Browser tests wait with "() => expression" functions,
+#: which need no eval.)
 CONTENT_SECURITY_POLICY = (
-    "default-src 'self'; script-src 'self' 'unsafe-eval'; img-src 'self' data:; "
+    "default-src 'self'; script-src 'self'; img-src 'self' data:; "
     "object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
 SECURITY_HEADERS = {
     "Content-Security-Policy": CONTENT_SECURITY_POLICY,
