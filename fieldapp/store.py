@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import os
 import sqlite3
 from importlib import resources
 from pathlib import Path
@@ -73,8 +74,20 @@ def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
             if tables and "readings" not in tables:
                 raise StoreError(f"{path} is a database of another program; fieldapp will "
                                  "not touch it. Choose another --data folder.", status=500)
+            _check_version(conn)   # before anything writes to the file
         conn.execute("PRAGMA journal_mode = WAL")
         migrate(conn)
+    except sqlite3.OperationalError as e:
+        conn.close()
+        msg = str(e).lower()
+        if "readonly" in msg or "read-only" in msg or "unable to open" in msg or \
+                not os.access(path.parent, os.W_OK):
+            raise StoreError(f"fieldapp cannot write to {path.parent} ({e}): the folder or "
+                             "the log file is read-only or the disk is full. Choose another "
+                             "--data folder or free the disk.", status=500) from None
+        raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
+                         "it is; restore a backup or choose another --data folder.",
+                         status=500) from None
     except sqlite3.DatabaseError as e:
         conn.close()
         raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
@@ -86,14 +99,19 @@ def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
     return conn
 
 
-def migrate(conn: sqlite3.Connection) -> int:
-    """Apply every schema file newer than the database's user_version."""
+def _check_version(conn: sqlite3.Connection) -> int:
     current = conn.execute("PRAGMA user_version").fetchone()[0]
-    known = _migrations()
-    newest = max(v for v, _ in known)
+    newest = max(v for v, _ in _migrations())
     if current > newest:
         raise StoreError(f"this database was written by a newer fieldapp (schema {current}, "
                          f"this program knows {newest}); update fieldapp.", status=500)
+    return current
+
+
+def migrate(conn: sqlite3.Connection) -> int:
+    """Apply every schema file newer than the database's user_version."""
+    current = _check_version(conn)
+    known = _migrations()
     for version, sql in known:
         if version <= current:
             continue
@@ -140,6 +158,10 @@ class transaction:
         return self.conn
 
     def __exit__(self, exc_type, exc, tb):
+        # After some errors (SQLITE_FULL, SQLITE_IOERR) SQLite has already rolled
+        # the transaction back; a second ROLLBACK would hide the real cause.
+        if not self.conn.in_transaction:
+            return False
         if self.nested:
             if exc_type:
                 self.conn.execute("ROLLBACK TO tx")

@@ -185,11 +185,7 @@ def test_restore_refuses_files_that_are_not_a_sound_log(tmp_path):
 
 
 @pytest.mark.parametrize("what", ["random bytes", "truncated", "damaged pages",
-                                  "another program", pytest.param("newer schema", marks=(
-                                      pytest.mark.xfail(strict=True, reason=(
-                                          "store.connect switches the file to WAL before "
-                                          "it checks the schema version")))),
-                                  ])
+                                  "another program", "newer schema"])
 def test_start_up_on_a_bad_log_is_a_clear_message_and_touches_nothing(tmp_path, what):
     from fieldapp import create_app
     app = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "src")})
