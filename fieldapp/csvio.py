@@ -173,59 +173,86 @@ def read_export(src: IO[str]) -> list[dict]:
     return rows
 
 
+IMPORT_CHUNK = 2000
+
+
+def _payload(r: dict) -> dict:
+    return {"uuid": r["uuid"], "site": r["site"], "sample": r["sample"],
+            "value": r["value"], "unit": r["unit"], "temp_c": r["temp_c"],
+            "compensated": r["compensated"] == "yes", "ratio": r["ratio"],
+            "sp": r["sp_pct"], "texture": r["texture"],
+            "tds_factor": r["tds_factor"], "theta_g_pct": r["theta_g_pct"],
+            "matric_MPa": r["matric_MPa"], "depth_cm": r["depth_cm"],
+            "meter": r["meter"], "replicate_group": r["replicate_group"],
+            "note": r["note"], "taken_at": r["taken_at"],
+            "visited_by": r["visited_by"]}
+
+
 def import_rows(conn, rows: list[dict]) -> dict:
-    """Merge rows into the log in one transaction. Returns counts."""
+    """Merge rows into the log in one transaction. Returns counts.
+
+    New rows are converted in chunks by the vectorized core (the result shown
+    for each reading); the numbers computed where the reading was taken are
+    kept as exported, so a merged log shows the same figures as its source."""
     from .records import build_record
+    from .science.convert import RowInputError, convert_readings
     added = skipped = voids = 0
     with store.transaction(conn):
-        for r in rows:
-            existing = store.get_reading(conn, r["uuid"])
-            if existing is None:
-                payload = {"uuid": r["uuid"], "site": r["site"], "sample": r["sample"],
-                           "value": r["value"], "unit": r["unit"], "temp_c": r["temp_c"],
-                           "compensated": r["compensated"] == "yes", "ratio": r["ratio"],
-                           "sp": r["sp_pct"], "texture": r["texture"],
-                           "tds_factor": r["tds_factor"], "theta_g_pct": r["theta_g_pct"],
-                           "matric_MPa": r["matric_MPa"], "depth_cm": r["depth_cm"],
-                           "meter": r["meter"], "replicate_group": r["replicate_group"],
-                           "note": r["note"], "taken_at": r["taken_at"],
-                           "visited_by": r["visited_by"]}
-                try:
-                    rec = build_record(payload)
-                except (InputError, store.StoreError) as e:
-                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was imported.",
-                                       getattr(e, "field", None)) from None
-                # What was computed and recorded where the reading was taken is kept
-                # as it was exported, so a merged log shows the same numbers.
-                for c in ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
-                          "flags", "recorded_at", "app_version"):
-                    rec[c] = r[c] if r[c] != "" else None
-                rec["flags"] = r["flags"]
-                rec["app_version"] = r["app_version"] or __version__
-                rec["supersedes_uuid"] = r["supersedes_uuid"] or None
-                rec["result_json"] = json.dumps(
-                    {**json.loads(rec["result_json"]), "imported": True},
-                    ensure_ascii=False, separators=(",", ":"))
-                try:
-                    store.insert_reading(conn, rec)
-                except store.StoreError as e:
-                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was imported.",
-                                       e.field) from None
-                added += 1
-            else:
-                skipped += 1
-            if r["flag_acks"]:
-                row = store.get_reading(conn, r["uuid"])
-                have = {a["code"] for a in store.acks_for_readings(conn, [row["id"]])[row["id"]]}
-                for code, note in _parse_acks(r["flag_acks"]):
-                    if code not in have:
-                        store.insert_ack(conn, row["id"], code, note)
-            if r["status"] == "void":
-                row = store.get_reading(conn, r["uuid"])
-                if row["status"] == "current":
-                    store.insert_void(conn, row["id"], r["void_reason"] or "void",
-                                      r["voided_at"] or None)
-                    voids += 1
+        for k in range(0, len(rows), IMPORT_CHUNK):
+            chunk = rows[k:k + IMPORT_CHUNK]
+            known = store.existing_uuids(conn, [r["uuid"] for r in chunk])
+            fresh = [r for r in chunk if r["uuid"] not in known]
+            payloads = [_payload(r) for r in fresh]
+            try:
+                results = convert_readings(payloads)
+            except RowInputError as e:
+                raise ImportError_(f"line {fresh[e.index]['_line']}: {e.message} Nothing was "
+                                   "imported.", e.field) from None
+            result_of = {r["uuid"]: (p, res) for r, p, res in zip(fresh, payloads, results)}
+            recs = []
+            for r in chunk:
+                if r["uuid"] in result_of and r["uuid"] not in known:
+                    payload, result = result_of[r["uuid"]]
+                    result["imported"] = True
+                    try:
+                        rec = build_record(payload, result=result)
+                    except (InputError, store.StoreError) as e:
+                        raise ImportError_(f"line {r['_line']}: {e.message} Nothing was "
+                                           "imported.", getattr(e, "field", None)) from None
+                    for c in ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
+                              "psi_s_method", "recorded_at"):
+                        rec[c] = r[c] if r[c] != "" else None
+                    rec["flags"] = r["flags"]
+                    rec["app_version"] = r["app_version"] or __version__
+                    rec["supersedes_uuid"] = r["supersedes_uuid"] or None
+                    recs.append(rec)
+                    known.add(r["uuid"])
+                    added += 1
+                else:
+                    skipped += 1
+            wanted = {rec["supersedes_uuid"] for rec in recs if rec["supersedes_uuid"]}
+            missing = wanted - known - store.existing_uuids(conn, wanted - known)
+            if missing:
+                raise ImportError_(f"The file corrects readings that are not in it nor in the "
+                                   f"log ({', '.join(sorted(missing)[:3])}). Nothing was "
+                                   "imported.", "file")
+            try:
+                store.insert_readings_bulk(conn, recs)
+            except store.StoreError as e:
+                raise ImportError_(f"{e.message} Nothing was imported.", e.field) from None
+            for r in chunk:
+                if r["flag_acks"] or r["status"] == "void":
+                    row = store.get_reading(conn, r["uuid"])
+                    if r["flag_acks"]:
+                        have = {a["code"] for a in
+                                store.acks_for_readings(conn, [row["id"]])[row["id"]]}
+                        for code, note in _parse_acks(r["flag_acks"]):
+                            if code not in have:
+                                store.insert_ack(conn, row["id"], code, note)
+                    if r["status"] == "void" and row["status"] == "current":
+                        store.insert_void(conn, row["id"], r["void_reason"] or "void",
+                                          r["voided_at"] or None)
+                        voids += 1
     return {"added": added, "skipped": skipped, "voided": voids}
 
 

@@ -78,7 +78,7 @@ def with_site_defaults(payload: dict, site) -> dict:
 
 
 def build_record(payload: dict, site=None, conn=None,
-                 max_age_days: float = DEFAULT_MAX_AGE_DAYS) -> dict:
+                 max_age_days: float = DEFAULT_MAX_AGE_DAYS, result: dict | None = None) -> dict:
     """Validate a submitted reading and compute everything; a dict for
     store.insert_reading. Raises InputError or StoreError naming the field.
     Given a connection the checks see the meter, calibration and history."""
@@ -88,8 +88,9 @@ def build_record(payload: dict, site=None, conn=None,
     if not _UUID_RE.match(rid):
         raise InputError("uuid must be 8 to 64 letters, digits or -_.:", "uuid")
     site_name = store.clean_site_name(payload.get("site"))
-    d = with_site_defaults(payload, site)
-    result = convert_reading(d, context=_context(conn, payload, site, max_age_days))
+    if result is None:   # a batch (import) passes the result it converted in bulk
+        d = with_site_defaults(payload, site)
+        result = convert_reading(d, context=_context(conn, payload, site, max_age_days))
     inp = result["input"]
     depth = parse_number(payload.get("depth_cm"), "depth_cm", "a depth")
     if depth is not None and not (0 <= depth <= 500):

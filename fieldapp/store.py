@@ -261,7 +261,19 @@ _READING_SELECT = """
     LEFT JOIN voids vo ON vo.reading_id = r.id"""
 
 
-def insert_reading(conn, rec: dict, site_attrs: dict | None = None) -> tuple[sqlite3.Row, bool]:
+def existing_uuids(conn, uuids) -> set[str]:
+    """Which of these reading uuids are in the log already."""
+    uuids = list(uuids)
+    found: set[str] = set()
+    for k in range(0, len(uuids), 500):
+        part = uuids[k:k + 500]
+        found.update(r[0] for r in conn.execute(
+            f"SELECT uuid FROM readings WHERE uuid IN ({','.join('?' * len(part))})", part))
+    return found
+
+
+def insert_reading(conn, rec: dict, site_attrs: dict | None = None,
+                   fetch: bool = True) -> tuple[sqlite3.Row | None, bool]:
     """Store one reading; return (row, created).
 
     ``rec`` holds the INPUT_FIELDS, the COMPUTED_FIELDS, ``uuid``, ``site``,
@@ -271,7 +283,9 @@ def insert_reading(conn, rec: dict, site_attrs: dict | None = None) -> tuple[sql
     (``supersedes_uuid``) of a reading already corrected or voided is refused.
     """
     with transaction(conn):
-        existing = get_reading(conn, rec["uuid"])
+        existing = None
+        if conn.execute("SELECT 1 FROM readings WHERE uuid = ?", (rec["uuid"],)).fetchone():
+            existing = get_reading(conn, rec["uuid"])
         if existing is not None:
             if (existing["site"].lower() != " ".join(str(rec["site"]).split()).lower()
                     or existing["value"] != rec["value"] or existing["unit"] != rec["unit"]):
@@ -301,7 +315,44 @@ def insert_reading(conn, rec: dict, site_attrs: dict | None = None) -> tuple[sql
         vals[cols.index("flags")] = rec.get("flags") or ""
         conn.execute(f"INSERT INTO readings ({', '.join(cols)}) VALUES "
                      f"({', '.join('?' * len(cols))})", vals)
-        return get_reading(conn, rec["uuid"]), True
+        return (get_reading(conn, rec["uuid"]) if fetch else None), True
+
+
+def insert_readings_bulk(conn, recs: list[dict]) -> int:
+    """Insert many new readings (an import) inside the caller's transaction.
+
+    The same columns as :func:`insert_reading`; sites and visits are created
+    as needed; a correction's ``supersedes_uuid`` may name a reading earlier
+    in the same list. The caller has checked that the uuids are new. One
+    executemany instead of a round of queries per reading."""
+    site_ids: dict[str, int] = {}
+    visit_ids: dict[tuple, int] = {}
+    cols = ("uuid", "site_id", "visit_id") + INPUT_FIELDS + COMPUTED_FIELDS \
+        + ("result_json", "app_version", "recorded_at")
+    rows = []
+    for rec in recs:
+        key = rec["site"].lower()
+        if key not in site_ids:
+            site_ids[key] = ensure_site(conn, rec["site"])["id"]
+        sid = site_ids[key]
+        vkey = (sid, rec["taken_at"][:10], rec.get("visited_by") or "")
+        if vkey not in visit_ids:
+            visit_ids[vkey] = _visit_id(conn, sid, rec["taken_at"], rec.get("visited_by") or "")
+        vals = [rec["uuid"], sid, visit_ids[vkey]] + [rec.get(k) for k in INPUT_FIELDS] \
+            + [rec.get(k) for k in COMPUTED_FIELDS] \
+            + [rec["result_json"], rec["app_version"], rec.get("recorded_at") or utc_now()]
+        vals[cols.index("compensated")] = 1 if rec.get("compensated") else 0
+        vals[cols.index("note")] = rec.get("note") or ""
+        vals[cols.index("flags")] = rec.get("flags") or ""
+        rows.append(vals + [rec.get("supersedes_uuid")])
+    try:
+        conn.executemany(
+            f"INSERT INTO readings ({', '.join(cols)}, supersedes_id) VALUES "
+            f"({', '.join('?' * len(cols))}, (SELECT id FROM readings WHERE uuid = ?))", rows)
+    except sqlite3.IntegrityError as e:
+        raise StoreError(f"The file corrects one reading twice or repeats a reading ({e}).",
+                         "file", 400) from None
+    return len(rows)
 
 
 def void_reading(conn, uuid: str, reason: str, voided_at: str | None = None) -> sqlite3.Row:
@@ -400,6 +451,12 @@ def list_calibrations(conn, meter_id: int) -> list[dict]:
     return [_cal_dict(r) for r in rows]
 
 
+#: The history check compares a reading with this many latest readings of the
+#: same site, kind and depth: recent enough to follow a real trend, enough
+#: for a robust median, and a save costs the same however long the log grows.
+HISTORY_WINDOW = 50
+
+
 def history_values(conn, site_id: int, sample: str, depth_cm, exclude_uuid=None,
                    before: str | None = None) -> list[float]:
     """ECe (soil) or EC at 25 °C (other kinds) of the site's current readings of
@@ -417,6 +474,8 @@ def history_values(conn, site_id: int, sample: str, depth_cm, exclude_uuid=None,
     if before:
         sql += "AND r.taken_at < ? "
         args.append(before)
+    sql += "ORDER BY r.taken_at DESC LIMIT ?"
+    args.append(HISTORY_WINDOW)
     return [r[0] for r in conn.execute(sql, args)]
 
 

@@ -488,8 +488,45 @@ def convert_reading(d: dict, context: dict | None = None) -> dict:
     if callable(context):
         context = context(kw)
     out = convert_batch(make_batch(**kw, context=context))
-    row = {k: v[0] for k, v in out.items() if k != "flags"}
-    row["flags"] = out["flags"].for_row(0)
+    return result_for_row(out, 0, kw)
+
+
+class RowInputError(InputError):
+    """An InputError of one reading in a list; ``index`` says which."""
+
+    def __init__(self, message, field, index):
+        super().__init__(message, field)
+        self.index = index
+
+
+def convert_readings(ds: list[dict]) -> list[dict]:
+    """Validate and convert many readings in one vectorized pass; the same
+    result dicts as :func:`convert_reading` (no context columns). Raises
+    RowInputError naming the index of the first reading that cannot be one."""
+    kws = []
+    for i, d in enumerate(ds):
+        try:
+            kws.append(validate_reading(d))
+        except InputError as e:
+            raise RowInputError(e.message, e.field, i) from None
+    if not kws:
+        return []
+    cols = {k: [kw[k] for kw in kws] for k in kws[0]}
+    floats = ("ratio_n", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa")
+    for k in floats:
+        cols[k] = np.array([np.nan if v is None else v for v in cols[k]], dtype=float)
+    for k in ("unit", "sample", "texture", "ece_method", "crop"):
+        arr = np.empty(len(kws), dtype=object)
+        arr[:] = cols[k]
+        cols[k] = arr
+    out = convert_batch(make_batch(**cols))
+    return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
+
+
+def result_for_row(out: dict, i: int, kw: dict) -> dict:
+    """The JSON-ready result of row ``i`` of a converted batch."""
+    row = {k: v[i] for k, v in out.items() if k != "flags"}
+    row["flags"] = out["flags"].for_row(i)
     crop = row["crop"]
     result = {
         "input": {
