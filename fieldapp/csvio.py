@@ -51,10 +51,15 @@ def plain_number(x) -> str:
     return "0" if s == "-0" else s
 
 
+_FORMULA_FIRST = frozenset(_FORMULA_START)
+
+
 def neutralize(text) -> str:
     """Prefix text a spreadsheet would treat as a formula with an apostrophe."""
-    s = "" if text is None else str(text)
-    return "'" + s if s.startswith(_FORMULA_START) else s
+    if text is None:
+        return ""
+    s = str(text)
+    return "'" + s if s[:1] in _FORMULA_FIRST else s
 
 
 def unneutralize(text: str) -> str:
@@ -76,34 +81,41 @@ def _parse_acks(cell: str) -> list[tuple[str, str]]:
     return out
 
 
-def row_cells(row, acks: list[dict] | None = None) -> list[str]:
-    cells = []
-    for c in COLUMNS:
-        if c == "flag_acks":
-            cells.append(neutralize(_acks_cell(acks or [])))
-            continue
-        v = row[c]
-        if c in NUMERIC:
-            cells.append(plain_number(v))
-        elif c == "compensated":
-            cells.append("yes" if v else "no")
-        else:
-            cells.append(neutralize(v))
-    return cells
+def _yes_no(v) -> str:
+    return "yes" if v else "no"
 
 
-def export_lines(conn, site_id: int | None = None) -> Iterator[str]:
-    """Yield the CSV text piece by piece: BOM + header, then one line per row."""
+def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500) -> Iterator[str]:
+    """Yield the CSV text piece by piece: BOM + header, then a few hundred rows
+    at a time. Each column's formatter is chosen once, not per cell."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(COLUMNS)
     yield BOM + buf.getvalue()
     acked = store.acked_reading_ids(conn)
+    formatters = [plain_number if c in NUMERIC else _yes_no if c == "compensated" else neutralize
+                  for c in COLUMNS[:-1]]          # the last column, flag_acks, is built apart
+    idx = None
+    pending = 0
+    buf.seek(0)
+    buf.truncate()
     for row in store.iter_readings(conn, site_id=site_id):
-        buf.seek(0)
-        buf.truncate()
-        acks = store.acks_for_readings(conn, [row["id"]])[row["id"]] if row["id"] in acked else None
-        w.writerow(row_cells(row, acks))
+        if idx is None:
+            keys = row.keys()
+            idx = [keys.index(c) for c in COLUMNS[:-1]]
+            id_pos = keys.index("id")
+        cells = [f(row[i]) for f, i in zip(formatters, idx)]
+        rid = row[id_pos]
+        cells.append(neutralize(_acks_cell(store.acks_for_readings(conn, [rid])[rid]))
+                     if rid in acked else "")
+        w.writerow(cells)
+        pending += 1
+        if pending >= rows_per_piece:
+            yield buf.getvalue()
+            buf.seek(0)
+            buf.truncate()
+            pending = 0
+    if pending:
         yield buf.getvalue()
 
 
