@@ -6,8 +6,9 @@
  * http LAN address the outbox still keeps readings, but a reload needs the
  * server. */
 "use strict";
-var CACHE = "fieldapp-v1";
-var SHELL = ["/", "/static/style.css", "/static/outbox.js", "/static/entry.js", "/static/site.js"];
+var CACHE = "fieldapp-v2";
+var SHELL = ["/", "/static/style.css", "/static/outbox.js", "/static/entry.js", "/static/site.js",
+             "/static/meters.js", "/static/map.js", "/static/site_views.js"];
 
 self.addEventListener("install", function (ev) {
   ev.waitUntil(caches.open(CACHE).then(function (c) { return c.addAll(SHELL); })
