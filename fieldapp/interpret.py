@@ -146,17 +146,19 @@ def compare_to_target(value: float | None, target: Mapping | None) -> dict | Non
 
 def _range_text(lo, hi) -> str:
     if lo is not None and hi is not None:
-        return f"{_n(lo)}–{_n(hi)} dS/m"
+        return f"{short_number(lo)}–{short_number(hi)} dS/m"
     if lo is not None:
-        return f"≥ {_n(lo)} dS/m"
-    return f"≤ {_n(hi)} dS/m"
+        return f"≥ {short_number(lo)} dS/m"
+    return f"≤ {short_number(hi)} dS/m"
 
 
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
 
-def _n(x, digits: int = 3) -> str:
+def short_number(x, digits: int = 3) -> str:
+    """A number with a few significant digits in plain notation (never 1e-05);
+    "—" for a missing value. Used by the pages and the interpretation text."""
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "—"
     x = float(x)
@@ -211,7 +213,7 @@ def is_flagged(r: Mapping) -> bool:
 
 
 def depth_label(depth_cm) -> str:
-    return "depth not given" if depth_cm is None else f"{_n(depth_cm)} cm"
+    return "depth not given" if depth_cm is None else f"{short_number(depth_cm)} cm"
 
 
 def current_readings(readings: Iterable[Mapping], as_of: str | None = None) -> list[Mapping]:
@@ -635,16 +637,16 @@ def headline(s: Mapping) -> list[str]:
     crop = s.get("crop")
     if soil:
         rz = soil["root_zone"]
-        t = (f"Soil ECe {_n(rz['ece_dS_m'])} dS/m on {soil['date']} "
+        t = (f"Soil ECe {short_number(rz['ece_dS_m'])} dS/m on {soil['date']} "
              f"({rz['depths_label']}): {str(rz['class_label']).lower()}.")
         if crop and rz["relative_yield_pct"] is not None:
-            t += f" Expected {crop['name']} yield about {_n(rz['relative_yield_pct'], 2)} %."
+            t += f" Expected {crop['name']} yield about {short_number(rz['relative_yield_pct'], 2)} %."
         lines.append(t)
         h = soil.get("heading")
         if h:
             if h["direction"] == "steady":
                 lines.append(f"Since {h['from_date']}: {h['text']} "
-                             f"({_signed(h['change_dS_m'])} dS/m, ± {_n(h['uncertainty_dS_m'])}).")
+                             f"({_signed(h['change_dS_m'])} dS/m, ± {short_number(h['uncertainty_dS_m'])}).")
             else:
                 lines.append(f"Since {h['from_date']}: {h['text']}, {_signed(h['change_dS_m'])} dS/m "
                              f"in {h['days']} days.")
@@ -652,24 +654,24 @@ def headline(s: Mapping) -> list[str]:
                 lines[-1] = lines[-1][:-1] + " (the ECe method changed; part of it may come from that)."
     w = s.get("water")
     if w:
-        t = (f"Water {_n(w['ec25_dS_m'])} dS/m on {w['date']}: "
+        t = (f"Water {short_number(w['ec25_dS_m'])} dS/m on {w['date']}: "
              f"{str(w['hazard_label']).lower()} (salinity).")
         lv = w.get("leaching")
         if lv:
             if lv["too_salty"]:
                 t += f" Too salty to keep {lv['crop']} at full yield by leaching alone."
             else:
-                t += f" Leaching requirement for {lv['crop']}: {_n(lv['lr_100'] * 100, 2)} %."
+                t += f" Leaching requirement for {lv['crop']}: {short_number(lv['lr_100'] * 100, 2)} %."
         lines.append(t)
     gh = s.get("greenhouse")
     if gh and gh.get("latest"):
         v = gh["latest"]
-        lines.append(f"Leachate/feed EC {_n(v['ratio'])} on {v['date']} "
-                     f"({_n(v['leachate_dS_m'])} / {_n(v['feed_dS_m'])} dS/m): "
+        lines.append(f"Leachate/feed EC {short_number(v['ratio'])} on {v['date']} "
+                     f"({short_number(v['leachate_dS_m'])} / {short_number(v['feed_dS_m'])} dS/m): "
                      f"{v['band']['label'].lower()}.")
     for t in s.get("substrate") or ():
         if t["level_label"]:
-            lines.append(f"{t['sample_label']} {_n(t['ec25_dS_m'])} dS/m on {t['date']}: "
+            lines.append(f"{t['sample_label']} {short_number(t['ec25_dS_m'])} dS/m on {t['date']}: "
                          f"{t['level_label'].lower()} for this method.")
     if not lines:
         lines.append("No current readings to interpret yet.")
@@ -679,7 +681,7 @@ def headline(s: Mapping) -> list[str]:
 def _signed(x) -> str:
     if x is None:
         return "—"
-    return ("+" if x > 0 else "−" if x < 0 else "±") + _n(abs(x))
+    return ("+" if x > 0 else "−" if x < 0 else "±") + short_number(abs(x))
 
 
 # --------------------------------------------------------------------------
@@ -721,7 +723,7 @@ def water_bands() -> list[dict]:
 
 def _point(r: Mapping, y: float, series: str) -> dict:
     codes = [f["code"] for f in _flags(r)]
-    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {_n(y)} dS/m"
+    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(y)} dS/m"
     if codes:
         label += " · flags: " + ", ".join(codes)
     return {"t": r.get("taken_at") or _day(r), "y": y, "key": r.get("uuid"),
@@ -814,7 +816,7 @@ def profile_spec(site: Mapping, readings: Iterable[Mapping], day: str | None = N
             x = _ece(r)
             pts.append({"depth": r["depth_cm"], "x": x, "key": r.get("uuid"),
                         "flagged": is_flagged(r),
-                        "label": f"{d} · {depth_label(r['depth_cm'])} · ECe {_n(x)} dS/m"})
+                        "label": f"{d} · {depth_label(r['depth_cm'])} · ECe {short_number(x)} dS/m"})
         series.append({"name": d, "points": pts})
     crop = site_crop(dict(site))
     return {"id": "profile", "title": f"ECe by depth on {multi[-1]}", "x_label": "ECe, dS/m",

@@ -161,3 +161,25 @@ def test_meter_profile_check_and_remembered_meter(browser, server):
     page.reload()
     assert page.input_value("#meter") == "tester A"     # remembered for the next reading
     ctx.close()
+
+
+def test_void_and_acknowledge_from_the_site_log(browser, server):
+    import json
+    import urllib.request
+    body = json.dumps({"site": "Block 3", "sample": "water", "value": "1.2",
+                       "unit": "dS/m"}).encode()
+    req = urllib.request.Request(server.url + "/api/readings", data=body,
+                                 headers={"Content-Type": "application/json"})
+    rec = json.load(urllib.request.urlopen(req))
+    assert "temperature_unknown" in rec["flags"]
+    ctx, page = new_page(browser, PHONE)
+    answers = iter(["sample was at air temperature, about 25", "wrong bottle"])
+    page.on("dialog", lambda d: d.accept(next(answers)))
+    page.goto(f"{server.url}/sites/{rec['site_id']}")
+    page.click(".ack-btn[data-code='temperature_unknown']")
+    page.wait_for_selector(".ack")
+    assert "about 25" in page.inner_text(".ack")
+    page.click(".void-btn")
+    page.wait_for_selector("article.status-void")
+    assert "wrong bottle" in page.inner_text(".void-reason")
+    ctx.close()

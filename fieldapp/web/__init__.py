@@ -7,6 +7,7 @@ import sqlite3
 from flask import current_app, g, jsonify, render_template, request
 
 from .. import store
+from ..interpret import short_number
 from ..science import InputError
 
 
@@ -29,20 +30,10 @@ def _wants_json() -> bool:
 
 def num(x, digits: int = 4) -> str:
     """Jinja filter: a number with a few significant digits, never 1e-05."""
-    if x is None:
-        return "—"
     try:
-        x = float(x)
+        return short_number(x, digits)
     except (TypeError, ValueError):
         return str(x)
-    if x != x:
-        return "—"
-    if x == 0:
-        return "0"
-    s = f"{x:.{digits}g}"
-    if "e" in s:
-        s = f"{x:f}".rstrip("0").rstrip(".")
-    return s
 
 
 def register_common(app):
