@@ -268,3 +268,14 @@ def test_calibration_flag_uses_the_check_valid_when_the_reading_was_taken(client
     assert "calibration_drift" in {f["code"] for f in now["flags"]}
     codes_before = {f["code"] for f in before["flags"]}
     assert "calibration_drift" not in codes_before and "calibration_stale" in codes_before
+
+
+def test_history_of_zeros_gives_a_finite_flag():
+    # a site whose earlier readings were all 0 (distilled-water blanks): no division by zero
+    hist = lambda k: {"history_median": 0.0, "history_mad": 0.0, "history_n": 6}
+    c, r = codes({"sample": "water", "compensated": True, "value": "2", "unit": "dS/m"}, hist)
+    f = next(f for f in r["flags"] if f["code"] == "history_jump")
+    import math
+    assert math.isfinite(f["data"]["robust_z"])
+    assert not flagged("history_jump", {"sample": "water", "compensated": True, "value": "0.005",
+                                        "unit": "dS/m"}, hist)

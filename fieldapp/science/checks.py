@@ -150,6 +150,7 @@ REPLICATE_CV_MAX_PCT = 10.0
 #: least this many earlier readings.
 HISTORY_Z_MAX = 3.5
 HISTORY_MIN_N = 5
+HISTORY_MIN_SCALE_dS_m = 0.01
 
 
 def _col(out, key, default=np.nan):
@@ -393,7 +394,9 @@ def history_jump(out):
     hn = _col(out, "history_n")
     basis = np.where(np.isnan(_f(out, "ece_dS_m")), _f(out, "ec25_dS_m"), _f(out, "ece_dS_m"))
     with np.errstate(invalid="ignore", divide="ignore"):
-        scale = np.maximum(mad, 0.05 * np.abs(med))   # a flat history still has some noise
+        # a flat history still has some noise: at least 5 % of the median and
+        # HISTORY_MIN_SCALE_dS_m (a pocket meter's last digit; common practice)
+        scale = np.maximum(np.maximum(mad, 0.05 * np.abs(med)), HISTORY_MIN_SCALE_dS_m)
         z = 0.6745 * (basis - med) / scale
         mask = (hn >= HISTORY_MIN_N) & (np.abs(z) > HISTORY_Z_MAX)
     return mask, lambda i: Flag(

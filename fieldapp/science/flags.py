@@ -7,6 +7,7 @@ the sun, and an ``action`` saying what to do about it.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, asdict, field
 
 SEVERITIES = ("info", "warning", "error")
@@ -28,4 +29,7 @@ class Flag:
         d = asdict(self)
         if not d["data"]:
             d.pop("data")
+        else:   # JSON has no NaN or infinity: an undefined figure is null
+            d["data"] = {k: (None if isinstance(v, float) and not math.isfinite(v) else v)
+                         for k, v in d["data"].items()}
         return d
