@@ -211,7 +211,7 @@ def below_resolution(out):
     ec = _f(out, "ec_dS_m")
     ece = _f(out, "ece_dS_m")
     ec25 = _f(out, "ec25_dS_m")
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(all="ignore"):
         mask = (res > 0) & (ec < RESOLUTION_STEPS_MIN * res)
         rel = np.where(ec > 0, 0.5 * res / ec, np.inf)
 
@@ -321,7 +321,7 @@ def ratio_below_saturation(out):
 def ece_implausible(out):
     ece = _f(out, "ece_dS_m")
     ec25 = _f(out, "ec25_dS_m")
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(all="ignore"):
         factor = np.where(ec25 > 0, ece / ec25, np.nan)
         brine = ece > ECE_MAX_PLAUSIBLE_dS_m
         diluted = factor > DILUTION_FACTOR_MAX
@@ -393,7 +393,7 @@ def history_jump(out):
     mad = _col(out, "history_mad")
     hn = _col(out, "history_n")
     basis = np.where(np.isnan(_f(out, "ece_dS_m")), _f(out, "ec25_dS_m"), _f(out, "ece_dS_m"))
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(all="ignore"):
         # a flat history still has some noise: at least 5 % of the median and
         # HISTORY_MIN_SCALE_dS_m (a pocket meter's last digit; common practice)
         scale = np.maximum(np.maximum(mad, 0.05 * np.abs(med)), HISTORY_MIN_SCALE_dS_m)
