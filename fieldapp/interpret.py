@@ -24,7 +24,7 @@ from typing import Iterable, Mapping
 
 from .science import InputError, extracts, osmotic, tolerance
 from .science.convert import CAUTIONS as CONVERT_CAUTIONS
-from .science.convert import parse_number
+from .science.convert import crop_summary, parse_number, round_sig
 
 SOIL_KINDS = ("paste", "extract")
 #: Solutions drawn on the second trend chart, in legend order.
@@ -171,13 +171,8 @@ def short_number(x, digits: int = 3) -> str:
 
 
 def _r(x, digits: int = 4):
-    """Round for JSON; None for None/NaN/inf."""
-    if x is None:
-        return None
-    x = float(x)
-    if not math.isfinite(x):
-        return None
-    return float(f"{x:.{digits}g}")
+    """Round for JSON (4 significant digits here); None for None/NaN/inf."""
+    return round_sig(x, digits)
 
 
 def _mean(values) -> float | None:
@@ -236,18 +231,7 @@ def site_crop(site: Mapping):
 
 
 def crop_dict(crop) -> dict | None:
-    if crop is None:
-        return None
-    return {
-        "name": crop.name,
-        "threshold_dS_m": crop.threshold_dS_m,
-        "slope_pct_per_dS_m": crop.slope_pct_per_dS_m,
-        "tolerance_class": crop.tolerance_class,
-        "tolerance_label": crop.tolerance_label,
-        "ece_at_yield_dS_m": {str(p): _r(tolerance.ece_at_yield(crop, p), 3)
-                              for p in (100, 90, 75, 50)},
-        "source": crop.source,
-    }
+    return None if crop is None else crop_summary(crop)
 
 
 def soil_class(ece: float | None) -> tuple[str | None, str | None]:

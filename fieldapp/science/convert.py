@@ -440,11 +440,32 @@ def validate_reading(d: dict) -> dict:
                 ece_method=method, crop=crop)
 
 
-def _num(x, digits=6):
+def round_sig(x, digits: int = 6):
+    """Round to significant digits for JSON; None for None, NaN and infinity."""
+    if x is None:
+        return None
     x = float(x)
     if math.isnan(x) or math.isinf(x):
         return None
     return float(f"{x:.{digits}g}")
+
+
+_num = round_sig
+
+
+def crop_summary(c) -> dict:
+    """A crop's salt tolerance as shown with a result: Maas-Hoffman threshold
+    and slope, ECe at 100/90/75/50 % yield, and the table row's source."""
+    return {
+        "name": c.name,
+        "threshold_dS_m": c.threshold_dS_m,
+        "slope_pct_per_dS_m": c.slope_pct_per_dS_m,
+        "tolerance_class": c.tolerance_class,
+        "tolerance_label": c.tolerance_label,
+        "ece_at_yield_dS_m": {str(p): round_sig(tolerance.ece_at_yield(c, p), 3)
+                              for p in (100, 90, 75, 50)},
+        "source": c.source,
+    }
 
 
 def meter_context(kw: dict, range_min=None, range_max=None, resolution=None,
@@ -570,15 +591,7 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
             "wilting_point_MPa": osmotic.PERMANENT_WILTING_POINT_MPa,
         }
     if crop:
-        c = tolerance.find_crop(crop)
-        result["crop"] = {
-            "name": c.name,
-            "threshold_dS_m": c.threshold_dS_m,
-            "slope_pct_per_dS_m": c.slope_pct_per_dS_m,
-            "ece_at_yield_dS_m": {str(p): _num(tolerance.ece_at_yield(c, p), 3)
-                                  for p in (100, 90, 75, 50)},
-            "source": c.source,
-        }
+        result["crop"] = crop_summary(tolerance.find_crop(crop))
         if kw["sample"] in ("paste", "extract"):
             result["relative_yield_pct"] = _num(row["relative_yield_pct"], 4)
         if kw["sample"] == "water":
