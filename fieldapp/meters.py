@@ -234,8 +234,12 @@ def reading_context(conn, kw: dict, payload: dict, site, max_age_days: float,
             checked = dt.datetime.fromisoformat(last["checked_at"])
             ctx["cal_age_days"] = max(0.0, (taken - checked).total_seconds() / 86400.0)
     if site is not None:
-        hist = store.history_values(conn, site["id"], kw["sample"],
-                                    parse_number(payload.get("depth_cm"), "depth_cm"),
+        from .records import parse_depth   # the save validates it and says why
+        try:
+            depth = parse_depth(payload.get("depth_cm"))
+        except InputError:
+            depth = None
+        hist = store.history_values(conn, site["id"], kw["sample"], depth,
                                     exclude_uuid=payload.get("uuid"))
         if hist:
             med = statistics.median(hist)

@@ -38,6 +38,22 @@ def parse_taken_at(text) -> str:
     return t.isoformat(timespec="seconds")
 
 
+_LAYER_RE = re.compile(r"^\s*\d{1,3}(?:[.,]\d{1,2})?\s*[-–—]\s*\d{1,3}(?:[.,]\d{1,2})?\s*(?:cm)?\s*$")
+
+
+def parse_depth(text) -> float | None:
+    """A sampling depth in cm, 0 to 500: one number, the bottom of the layer.
+    A layer typed as "0-30" gets a message that says what to type."""
+    if isinstance(text, str) and len(text) <= 20 and _LAYER_RE.match(text):
+        bottom = re.split(r"[-–—]", text)[-1].replace("cm", "").strip()
+        raise InputError(f"Type one depth in cm, the bottom of the layer: {bottom} for "
+                         f"{text.strip()} cm.", "depth_cm")
+    depth = parse_number(text, "depth_cm", "a depth")
+    if depth is not None and not (0 <= depth <= 500):
+        raise InputError("Depth must be between 0 and 500 cm.", "depth_cm")
+    return depth
+
+
 def _short_text(d: dict, key: str, limit: int = SHORT_TEXT_MAX) -> str | None:
     v = d.get(key)
     if v is None:
@@ -58,9 +74,20 @@ def _context(conn, payload, site, max_age_days):
 def preview(payload: dict, site=None, conn=None,
             max_age_days: float = DEFAULT_MAX_AGE_DAYS) -> dict:
     """The conversion result for a reading, with site defaults applied and,
-    given a connection, checked against its meter, calibration and history."""
-    return convert_reading(with_site_defaults(payload, site),
-                           context=_context(conn, payload, site, max_age_days))
+    given a connection, checked against its meter, calibration and history.
+
+    It runs exactly the validation of a save (:func:`build_record`), so a
+    preview that shows no refusal is a reading Save accepts. Where the reading
+    converts but a save would refuse it (no site yet, a depth that is not a
+    number, a note too long), ``refused`` says which field and why; a reading
+    that cannot be converted at all raises InputError as a save does."""
+    result = convert_reading(with_site_defaults(payload, site),
+                             context=_context(conn, payload, site, max_age_days))
+    try:
+        build_record(payload, site, conn, max_age_days, result=result)
+    except (InputError, store.StoreError) as e:
+        result["refused"] = {"field": e.field or "form", "error": e.message}
+    return result
 
 
 def with_site_defaults(payload: dict, site) -> dict:
@@ -92,9 +119,7 @@ def build_record(payload: dict, site=None, conn=None,
         d = with_site_defaults(payload, site)
         result = convert_reading(d, context=_context(conn, payload, site, max_age_days))
     inp = result["input"]
-    depth = parse_number(payload.get("depth_cm"), "depth_cm", "a depth")
-    if depth is not None and not (0 <= depth <= 500):
-        raise InputError("Depth must be between 0 and 500 cm.", "depth_cm")
+    depth = parse_depth(payload.get("depth_cm"))
     note = str(payload.get("note") or "").strip()
     if len(note) > NOTE_MAX:
         raise InputError(f"The note is at most {NOTE_MAX} characters.", "note")
@@ -149,4 +174,29 @@ def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS
                     and rec["value"] == existing["value"] and rec["unit"] == existing["unit"]):
                 return existing, False
     rec = build_record(payload, site, conn, max_age_days)
-    return store.insert_reading(conn, rec)
+    confirmed = _confirmed_codes(payload, rec)
+    with store.transaction(conn):   # the reading and "saved anyway" notes, together
+        row, created = store.insert_reading(conn, rec)
+        if created and confirmed:
+            who = rec.get("visited_by") or "the scout"
+            for code in confirmed:
+                store.insert_ack(conn, row["id"], code, SAVED_ANYWAY_NOTE.format(who=who))
+    return row, created
+
+
+#: The note kept with an error-level flag that the scout saw and saved anyway.
+SAVED_ANYWAY_NOTE = "Seen before saving; saved anyway by {who} on the entry page."
+
+
+def _confirmed_codes(payload: dict, rec: dict) -> list[str]:
+    """Codes of the error-level flags the page showed and the scout chose to
+    save anyway (``confirmed_flags``), limited to the reading's own flags."""
+    asked = payload.get("confirmed_flags") if isinstance(payload, dict) else None
+    if not isinstance(asked, list):
+        return []
+    have = set(filter(None, (rec.get("flags") or "").split(";")))
+    seen: list[str] = []
+    for c in asked:
+        if isinstance(c, str) and c in have and c not in seen:
+            seen.append(c)
+    return seen

@@ -236,6 +236,24 @@ def list_sites(conn) -> list[sqlite3.Row]:
         ORDER BY s.name COLLATE NOCASE""").fetchall()
 
 
+def open_flag_counts(conn) -> dict[int, int]:
+    """Per site, how many current readings carry a warning or an error that
+    nobody has acknowledged yet (the sites list marks them until a correction
+    or an acknowledgement settles each)."""
+    rows = conn.execute("""
+        SELECT r.site_id, COUNT(DISTINCT r.id)
+        FROM readings r
+        JOIN json_each(r.result_json, '$.flags') f
+        WHERE r.flags <> ''
+          AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = r.id)
+          AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = r.id)
+          AND json_extract(f.value, '$.severity') IN ('warning', 'error')
+          AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
+                          AND a.code = json_extract(f.value, '$.code'))
+        GROUP BY r.site_id""").fetchall()
+    return {r[0]: r[1] for r in rows}
+
+
 # ---------------------------------------------------------------- readings
 
 def _visit_id(conn, site_id: int, taken_at: str, visited_by: str) -> int:

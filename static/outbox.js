@@ -11,9 +11,12 @@
   "use strict";
   var KEY = "fieldapp.outbox.v1";
   var REFUSED = "fieldapp.refused.v1";
+  var ARRIVED = "fieldapp.arrived.v1";   // sent later and came back flagged
   var RETRY_MS = 5000;
+  var SEND_TIMEOUT_MS = 15000;           // a laptop that accepts but never answers
   var sending = false;
-  var listeners = [];
+  var listeners = [], sentListeners = [];
+  var sentNote = null;                   // "3 readings sent", shown for a few seconds
 
   function load(key) {
     try { return JSON.parse(localStorage.getItem(key) || "[]"); } catch (e) { return []; }
@@ -47,9 +50,10 @@
       var parts = [];
       if (n) parts.push(n + (n === 1 ? " reading waits" : " readings wait") + " to be sent");
       if (r) parts.push(r + " refused");
-      badge.textContent = parts.join(" · ");
-      badge.hidden = !parts.length;
-      badge.className = "badge" + (r ? " bad" : "");
+      var good = !parts.length && sentNote && Date.now() < sentNote.until;
+      badge.textContent = good ? sentNote.text : parts.join(" · ");
+      badge.hidden = !parts.length && !good;
+      badge.className = "badge" + (r ? " bad" : good ? " good" : "");
     }
     listeners.forEach(function (f) { try { f(n, r); } catch (e) { /* keep going */ } });
   }
@@ -62,6 +66,35 @@
     store(KEY, items);   // on disk in the browser before anything is sent
     notify();
     return reading;
+  }
+
+  function has(uuid) { return load(KEY).some(function (x) { return x.uuid === uuid; }); }
+
+  // What the server sends is the reading; keys starting with "_" are this
+  // device's own notes (e.g. which flags the scout saw before saving).
+  function body(item) {
+    var b = {};
+    Object.keys(item).forEach(function (k) { if (k.charAt(0) !== "_") b[k] = item[k]; });
+    return JSON.stringify(b);
+  }
+
+  // A reading that arrives with a warning or error the scout did not see
+  // before saving (saved offline, or the server found more) is kept in a list
+  // the entry page shows until it is corrected or acknowledged.
+  function noteArrival(item, record) {
+    var flags = ((record && record.result && record.result.flags) || []).filter(function (f) {
+      return f.severity === "warning" || f.severity === "error";
+    });
+    var seen = item._seen_flags;
+    var fresh = flags.filter(function (f) { return !seen || seen.indexOf(f.code) < 0; });
+    var list = load(ARRIVED);
+    if (item.supersedes) list = list.filter(function (x) { return x.uuid !== item.supersedes; });
+    if (fresh.length) {
+      list = list.filter(function (x) { return x.uuid !== item.uuid; });
+      list.push({ uuid: item.uuid, site: item.site, value: item.value, unit: item.unit,
+                  taken_at: record.taken_at || item.taken_at, flags: fresh });
+    }
+    store(ARRIVED, list);
   }
 
   function remove(key, uuid) {
@@ -79,13 +112,17 @@
       var item = items[i];
       var url = item.supersedes ? "/api/readings/" + encodeURIComponent(item.supersedes) + "/correct"
                                 : "/api/readings";
+      var ctl = window.AbortController ? new AbortController() : null;
+      var t = ctl ? setTimeout(function () { ctl.abort(); }, SEND_TIMEOUT_MS) : null;
       return fetch(url, {
         method: "POST", headers: { "Content-Type": "application/json" },
-        body: JSON.stringify(item), credentials: "same-origin"
-      }).then(function (resp) {
-        return resp.json().catch(function () { return {}; }).then(function (body) {
+        body: body(item), credentials: "same-origin", signal: ctl ? ctl.signal : undefined
+      }).finally(function () { if (t) clearTimeout(t); }).then(function (resp) {
+        return resp.json().catch(function () { return {}; }).then(function (answer) {
+          var body = answer;
           if (resp.status === 200 || resp.status === 201) {
             remove(KEY, item.uuid);
+            noteArrival(item, body);
             results.push({ ok: true, item: item, record: body });
             return next(i + 1);
           }
@@ -109,12 +146,24 @@
         sending = false; window.fieldappOutbox.lastError = trouble; notify();
         var badge = document.getElementById("outbox-badge");
         if (badge && trouble) { badge.textContent += " — " + trouble; badge.hidden = false; badge.className = "badge bad"; }
+        var sent = results.filter(function (x) { return x.ok; });
+        if (sent.length) {
+          sentNote = { text: sent.length + (sent.length === 1 ? " reading sent" : " readings sent"),
+                       until: Date.now() + 8000 };
+          notify();
+          setTimeout(notify, 8100);
+          sentListeners.forEach(function (f) { try { f(results); } catch (e) { /* keep going */ } });
+        }
         return results;
       });
   }
 
   window.fieldappOutbox = {
-    add: add, flush: flush, newId: newId, localIso: localIso,
+    add: add, flush: flush, newId: newId, localIso: localIso, has: has,
+    sending: function () { return sending; },
+    arrived: function () { return load(ARRIVED); },
+    dropArrived: function (uuid) { remove(ARRIVED, uuid); notify(); },
+    onSent: function (f) { sentListeners.push(f); },
     pending: function () { return load(KEY); },
     refused: function () { return load(REFUSED); },
     discardRefused: function (uuid) { remove(REFUSED, uuid); notify(); },

@@ -6,7 +6,7 @@
  * http LAN address the outbox still keeps readings, but a reload needs the
  * server. */
 "use strict";
-var CACHE = "fieldapp-v2";
+var CACHE = "fieldapp-v3";
 var SHELL = ["/", "/static/style.css", "/static/outbox.js", "/static/entry.js", "/static/site.js",
              "/static/meters.js", "/static/map.js", "/static/site_views.js"];
 

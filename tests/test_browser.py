@@ -157,6 +157,11 @@ def test_meter_profile_check_and_remembered_meter(browser, server):
     page.fill("#value", "1999")
     page.wait_for_selector("#preview li.flag[data-code='over_range']")
     page.click("#save")
+    # an error-level flag asks for one deliberate tap before anything is stored
+    page.wait_for_selector("#confirm:not([hidden])")
+    assert "Above the meter's range" in page.inner_text("#confirm")
+    assert page.evaluate("fetch('/api/readings').then(r => r.json())") == []
+    page.click("#save-anyway")
     page.wait_for_function("() => document.querySelector('#saved').textContent.includes('Saved to the log')")
     page.reload()
     assert page.input_value("#meter") == "tester A"     # remembered for the next reading

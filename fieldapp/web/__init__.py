@@ -39,6 +39,14 @@ def num(x, digits: int = 4) -> str:
 def register_common(app):
     app.teardown_appcontext(close_db)
     app.add_template_filter(num, "num")
+    # Plain words for codes on every page and the report (the codes stay in
+    # the API and the CSV).
+    from .. import labels
+    app.add_template_filter(labels.flag_label, "flag_label")
+    app.add_template_filter(labels.method_label, "method_label")
+    app.add_template_filter(labels.route_label, "route_label")
+    app.add_template_filter(labels.readable_source, "cite")
+    app.add_template_filter(lambda s: labels.SEVERITY_LABELS.get(s, s), "severity_label")
 
     @app.errorhandler(InputError)
     def _input_error(e):

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from flask import Blueprint, current_app, jsonify, request
 
-from .. import meters, records, store
+from .. import labels, meters, records, store
 from ..science import InputError, extracts, osmotic, tolerance, units
 from ..science.convert import parse_number
 from . import get_db
@@ -40,14 +40,21 @@ def preview():
             site = store.get_site(get_db(), store.clean_site_name(body["site"]))
         except store.StoreError:
             site = None
-    return jsonify(records.preview(body, site, get_db(), _max_age()))
+    return jsonify(labels.label_result(records.preview(body, site, get_db(), _max_age())))
 
 
 @bp.post("/readings")
 def save_reading():
     """Store a reading; the same uuid again returns the stored record (200)."""
     row, created = records.save_reading(get_db(), _body(), _max_age())
-    return jsonify(store.reading_dict(row)), 201 if created else 200
+    return jsonify(_record(row)), 201 if created else 200
+
+
+def _record(row) -> dict:
+    """A stored reading for the page: the record, its result with plain labels."""
+    d = store.reading_dict(row)
+    d["result"] = labels.label_result(d["result"])
+    return d
 
 
 @bp.get("/readings")
@@ -95,7 +102,7 @@ def correct_reading(rid):
     payload["site"] = old["site"]
     payload["supersedes"] = rid
     row, created = records.save_reading(db, payload, _max_age())
-    return jsonify(store.reading_dict(row)), 201 if created else 200
+    return jsonify(_record(row)), 201 if created else 200
 
 
 @bp.post("/readings/<rid>/ack")

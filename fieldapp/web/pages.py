@@ -27,7 +27,10 @@ def _form_meta() -> dict:
 @bp.get("/")
 def entry():
     db = get_db()
-    sites = [s["name"] for s in store.list_sites(db)]
+    # Each site with its latest current reading's sample kind and unit: a
+    # reading at an existing site starts from those, a new site from nothing.
+    sites = [{"name": s["name"], "sample": s["last_sample"], "unit": s["last_unit"],
+              "kind": s["kind"]} for s in store.list_sites(db)]
     meter_names = [m["name"] for m in store.list_meters(db)]
     return render_template("entry.html", meta=_form_meta(), sites=sites, meters=meter_names,
                            cautions=CAUTIONS)
@@ -53,7 +56,9 @@ def service_worker():
 
 @bp.get("/sites")
 def sites():
-    return render_template("sites.html", sites=store.list_sites(get_db()))
+    db = get_db()
+    return render_template("sites.html", sites=store.list_sites(db),
+                           to_check=store.open_flag_counts(db))
 
 
 @bp.get("/sites/<int:site_id>")
@@ -69,8 +74,15 @@ def site_log(site_id):
                                date_to=date_to)
     readings = [store.reading_dict(r) for r in rows]
     acks = store.acks_for_readings(db, [r["id"] for r in readings])
+    by_uuid = {r["uuid"]: r for r in readings}
     for r in readings:
         r["acks"] = {a["code"]: a for a in acks[r["id"]]}
+        # a correction is shown beside the version it replaces
+        prev = r.get("supersedes_uuid")
+        r["previous"] = by_uuid.get(prev) if prev else None
+        if prev and r["previous"] is None:
+            old = store.get_reading(db, prev)
+            r["previous"] = store.reading_dict(old) if old is not None else None
     from .views import site_view  # the summary and charts at the top of the log
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
                            summary=site_view(db, site),
