@@ -222,6 +222,9 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     ece = np.full(n, np.nan)
     ece_method = np.full(n, None, dtype=object)
     ece_unc = np.full(n, np.nan)
+    ece_note = np.full(n, None, dtype=object)
+    ece_basis = np.full(n, None, dtype=object)
+    ece_oor = np.zeros(n, dtype=bool)
     for (kind, r, sp, tex, meth), rows in _groups(b.sample, b.ratio_n, b.sp_pct,
                                                   b.texture, b.ece_method):
         if kind not in extracts.SAMPLE_KINDS:
@@ -234,8 +237,13 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
             sp_pct=None if math.isnan(sp) else sp,
             texture=tex or None, method=meth or None)
         ece[rows] = est.ece_dS_m
-        ece_method[rows] = est.method
-        ece_unc[rows] = np.nan if est.uncertainty_pct is None else est.uncertainty_pct
+        pr = est.per_row()
+        ece_method[rows] = pr["method"]
+        ece_unc[rows] = pr["uncertainty_pct"]
+        if est.method is not None:
+            ece_note[rows] = pr["note"]
+            ece_basis[rows] = pr["basis"]
+        ece_oor[rows] = pr["out_of_range"]
 
     # 4. solute potential of the solution that matters: ECe for soil, the
     #    sample itself for waters, feeds, leachates and saturated media extracts.
@@ -310,6 +318,9 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
         "ece_dS_m": ece,
         "ece_method": ece_method,
         "ece_uncertainty_pct": ece_unc,
+        "ece_uncertainty_basis": ece_basis,
+        "ece_note": ece_note,
+        "ece_out_of_range": ece_oor,
         "psi_s_MPa": psi_s,
         "psi_s_method": psi_method,
         **{f"psi_s_{k}_MPa": v for k, v in routes.items()},
@@ -567,6 +578,9 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
         "ece_dS_m": _num(row["ece_dS_m"]),
         "ece_method": row["ece_method"],
         "ece_uncertainty_pct": _num(row["ece_uncertainty_pct"], 3),
+        "ece_uncertainty_basis": row["ece_uncertainty_basis"],
+        "ece_note": row["ece_note"],
+        "ece_out_of_range": bool(row["ece_out_of_range"]),
         "psi_s_MPa": _num(row["psi_s_MPa"], 4),
         "psi_s_method": row["psi_s_method"],
         "psi_s_by_method": {k: _num(row[f"psi_s_{k}_MPa"], 4) for k in osmotic.PSI_S_ROUTES},
