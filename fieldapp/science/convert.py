@@ -522,6 +522,8 @@ def crop_summary(c) -> dict:
         "ece_at_yield_dS_m": {str(p): round_sig(tolerance.ece_at_yield(c, p), 3)
                               for p in (100, 90, 75, 50)},
         "source": c.source,
+        "source_status": "read" if c.verified else "unverified",
+        "note": c.note or None,
     }
 
 

@@ -187,6 +187,8 @@ class Texture:
     sp_low_pct: float
     sp_high_pct: float
     source: str
+    #: "derived" (computed from a read table by a stated rule) or "unverified".
+    verified: str = "unverified"
 
 
 def _norm(name: str) -> str:
@@ -197,7 +199,7 @@ def _norm(name: str) -> str:
 
 TEXTURES: dict[str, Texture] = {
     r["name"]: Texture(r["name"], float(r["sp_pct"]), float(r["sp_low_pct"]),
-                       float(r["sp_high_pct"]), r["source"])
+                       float(r["sp_high_pct"]), r["source"], r.get("verified") or "unverified")
     for r in load_table("textures")
 }
 _TEXTURE_KEYS = {_norm(k).replace(" ", ""): k for k in TEXTURES}
@@ -890,11 +892,13 @@ class SubstrateRange:
     lo_dS_m: float
     hi_dS_m: float  # math.inf for the open top band
     source: str
+    verified: str = "unverified"
 
 
 _SUBSTRATE_ROWS = [
     SubstrateRange(r["method"], r["level"], float(r["lo_dS_m"]),
-                   float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"])
+                   float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"],
+                   r.get("verified") or "unverified")
     for r in load_table("substrate_ranges")
 ]
 SUBSTRATE_METHODS: tuple[str, ...] = tuple(dict.fromkeys(r.method for r in _SUBSTRATE_ROWS))
