@@ -15,7 +15,13 @@ Routes (see :func:`estimate_ece`):
 * ``paste``        the reading already is ECe.
 * ``sp_dilution``  ECe ≈ EC(1:N) · 100·N / SP (ideal dilution; needs SP or texture).
 * ``regression:<name>``  a published empirical line for one ratio (data table
-  ``fieldapp/data/ece_regressions.csv``).
+  ``fieldapp/data/ece_regressions.csv``), within its range of use; with only a
+  texture, 1:5 uses Slavich and Petterson (1993) and 1:1/1:2 the Hogg and Henry
+  (1984) line of the texture group.
+* ``proportional_below_range:<name>``  below a line's range of use with
+  nothing else known: the line's ECe/EC ratio at its lower limit.
+
+No ECe is below the EC of the extract it came from.
 
 Tables: ``textures.csv`` (saturation percentage by USDA texture class),
 ``ece_regressions.csv``, ``substrate_ranges.csv`` (interpretation of substrate
