@@ -50,6 +50,8 @@ def format_result(r: dict) -> str:
         unc = r["ece_uncertainty_pct"]
         lines.append(f"ECe            {_fmt(r['ece_dS_m'], 'dS/m')}  by {r['ece_method']}"
                      + (f" (about ±{unc:g} %)" if unc else ""))
+        if r.get("ece_note"):
+            lines.append(f"               {r['ece_note']}")
     if r["soil_class"]:
         lines.append(f"Soil class     {r['soil_class']}")
     if r["water_hazard"]:
@@ -58,6 +60,9 @@ def format_result(r: dict) -> str:
         lines.append(f"Solute pot.    {_fmt(r['psi_s_MPa'], 'MPa')}  by {r['psi_s_method']}")
         others = ", ".join(f"{k} {_fmt(v, 'MPa')}" for k, v in r["psi_s_by_method"].items())
         lines.append(f"               all routes: {others}")
+        if r.get("salinity_pss78") is not None:
+            lines.append(f"Salinity       {r['salinity_pss78']:.3g} (PSS-78 practical salinity; "
+                         "sea-salt water)")
     ss = r["soil_solution"]
     if ss:
         lines.append(f"At field cap.  EC {_fmt(ss['ec_fc_dS_m'], 'dS/m')}, "
@@ -70,8 +75,11 @@ def format_result(r: dict) -> str:
                          f"(matric {_fmt(ss['matric_MPa'], 'MPa')}); "
                          f"{_fmt(ss['margin_to_pwp_MPa'], 'MPa')} above wilting point "
                          f"({ss['wilting_point_MPa']} MPa)")
-    lines.append(f"TDS (approx.)  {_fmt(r['tds_mg_L'], 'mg/L')}; "
-                 f"cations {_fmt(r['cations_meq_L'], 'meq/L')}")
+    tds = r.get("tds") or {}
+    if tds.get("meter"):
+        lines.append(f"TDS, meter     {tds['meter']['label']}")
+    lines.append(f"TDS, estimate  {_fmt(r['tds_mg_L'], 'mg/L')} (USDA Handbook 60, 640 x EC25; "
+                 f"not a measurement); cations {_fmt(r['cations_meq_L'], 'meq/L')}")
     crop = r.get("crop")
     if crop:
         at = crop["ece_at_yield_dS_m"]
@@ -105,6 +113,7 @@ def cmd_convert(a) -> int:
         "temp_c": a.temp, "compensated": a.compensated, "sp": a.sp, "texture": a.texture,
         "crop": a.crop, "matric_MPa": a.matric, "tds_factor": a.tds_factor,
         "theta_g_pct": a.water_content, "ece_method": a.method,
+        "salt_type": a.salt_type,
     }, context=lambda kw: meter_context(kw, lo, hi, res))
     if a.json:
         json.dump(result, sys.stdout, ensure_ascii=False, indent=2)
@@ -240,6 +249,8 @@ def build_parser() -> argparse.ArgumentParser:
     c.add_argument("--texture", help="texture class, used for SP when --sp is not given")
     c.add_argument("--method", help="ECe method: a regression name (see DEVELOPERS.md)")
     c.add_argument("--crop", help="crop name, for relative yield and leaching requirement")
+    c.add_argument("--salt-type", help="sea_salt for water like diluted seawater (coastal "
+                   "wells, seawater intrusion): adds the PSS-78 seawater route")
     c.add_argument("--matric", help="matric potential in MPa (e.g. -0.05)")
     c.add_argument("--water-content", help="gravimetric water content now, %%")
     c.add_argument("--tds-factor", help="the meter's EC-to-TDS factor (0.5, 0.64, 0.7)")

@@ -30,7 +30,7 @@ def test_convert_json_keys():
         assert key in r
     assert r["ec25_dS_m"] == pytest.approx(1.413, rel=1e-9)   # SI: 1 µS/cm = 0.001 dS/m
     assert r["ece_dS_m"] is None                              # water has no soil ECe
-    assert set(r["psi_s_by_method"]) == {"handbook60", "rule_004", "nacl_pitzer"}
+    assert set(r["psi_s_by_method"]) == {"handbook60", "rule_004", "nacl_pitzer", "seawater_pss78"}
     # FAO 29 eq. (Rhoades 1974): LR = ECw / (5·ECe − ECw) with bean threshold 1.0 dS/m
     assert r["leaching_requirement"] == pytest.approx(1.413 / (5 * 1.0 - 1.413), rel=1e-3)
 

@@ -263,13 +263,19 @@ def test_route_sp_beats_texture_beats_default():
     est = ex.estimate_ece(1.0, "extract", ratio_n=1, sp_pct=40, texture="clay")
     assert est.method == "sp_dilution" and float(est.ece_dS_m) == pytest.approx(2.5)
     assert est.uncertainty_pct == 25.0 and "common practice" in est.uncertainty_basis
-    est = ex.estimate_ece(1.0, "extract", ratio_n=1, texture="Clay Loam")
+    # texture only, 1:1: the Hogg and Henry (1984) fine-texture line, PLoS ONE
+    # 2018 Table 2 ref [60]: ECe = 2.66 EC1:1 - 0.97
+    est = ex.estimate_ece(2.0, "extract", ratio_n=1, texture="Clay Loam")
+    assert est.method == "regression:hogg_henry_1to1_fine"
+    assert float(est.ece_dS_m) == pytest.approx(2.66 * 2.0 - 0.97)
+    # dilution by texture when asked for by name
+    est = ex.estimate_ece(1.0, "extract", ratio_n=1, texture="Clay Loam", method="sp_dilution")
     assert est.method == "sp_dilution:texture:clay loam"
     assert float(est.ece_dS_m) == pytest.approx(100.0 / ex.sp_for_texture("clay loam"))
-    est = ex.estimate_ece(1.0, "extract", ratio_n=1)
+    est = ex.estimate_ece(2.0, "extract", ratio_n=1)
     assert est.method == "regression:plos2018_ref63_1to1_combined"
-    # PLoS ONE 2018 Table 2 ref [63]: 2.23 * 1.0 - 0.58
-    assert float(est.ece_dS_m) == pytest.approx(2.23 - 0.58)
+    # PLoS ONE 2018 Table 2 ref [63]: 2.23 * 2.0 - 0.58
+    assert float(est.ece_dS_m) == pytest.approx(2.23 * 2.0 - 0.58)
     assert "laboratory" in est.note  # the estimate carries the usual caution
 
 
@@ -305,6 +311,105 @@ def test_route_bad_inputs():
     with pytest.raises(InputError) as e:
         ex.estimate_ece(1.0, "extract", ratio_n=5, texture="gumbo")
     assert e.value.field == "texture"
+
+
+# ---------------------------------------------------------------------------
+# Texture-only 1:5 extracts: Slavich and Petterson (1993)
+# ---------------------------------------------------------------------------
+
+def test_slavich_petterson_factor_is_the_papers_equation():
+    # Slavich & Petterson 1993 abstract (scilit.net): f = 2.46 + 3.03/θSP,
+    # θSP in kg/kg. Worked by hand: θ = 0.18 -> 19.29; 0.39 -> 10.23; 0.70 -> 6.79
+    np.testing.assert_allclose(ex.slavich_petterson_factor([18.0, 39.0, 70.0]),
+                               [2.46 + 3.03 / 0.18, 2.46 + 3.03 / 0.39, 2.46 + 3.03 / 0.70])
+    np.testing.assert_allclose(ex.slavich_petterson_factor([18.0, 39.0, 70.0]),
+                               [19.293, 10.229, 6.789], atol=1e-3)
+
+
+@pytest.mark.parametrize("texture", ["sand", "loam", "clay"])
+def test_texture_only_1to5_uses_slavich_petterson(texture):
+    # sand, loam and clay: ECe = (2.46 + 3.03/θSP) EC1:5 with the class SP
+    sp = ex.sp_for_texture(texture)
+    est = ex.estimate_ece([0.1, 0.5, 2.0], "extract", ratio_n="1:5", texture=texture)
+    assert est.method == "regression:slavich_petterson_1993_1to5"
+    np.testing.assert_allclose(est.ece_dS_m, np.array([0.1, 0.5, 2.0])
+                               * (2.46 + 3.03 / (sp / 100.0)))
+    assert "Slavich and Petterson 1993" in est.note and texture in est.note
+    assert est.uncertainty_pct is not None and "SP range" in est.uncertainty_basis
+
+
+def test_texture_only_1to5_no_longer_uses_ideal_dilution_on_light_soils():
+    # The ideal dilution 500/SP ran 40-100 % above the published relation on
+    # light soils (sand, SP 18 %: 27.8 against 19.3); loam +26 %.
+    for texture, excess in (("sand", 0.44), ("loam", 0.25)):
+        sp = ex.sp_for_texture(texture)
+        ideal = 500.0 / sp
+        est = float(ex.estimate_ece(1.0, "extract", ratio_n=5, texture=texture).ece_dS_m)
+        assert est < ideal
+        assert ideal / est - 1.0 == pytest.approx(excess, abs=0.02)
+
+
+# ---------------------------------------------------------------------------
+# No ECe below the extract's own EC; lines below their range of use
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("ratio", ["1:1", "1:2", "1:2.5", "1:5", "1:10"])
+@pytest.mark.parametrize("texture", [None, "sand", "loam", "clay"])
+def test_no_ece_below_the_extracts_own_ec(ratio, texture):
+    ec = np.concatenate([np.geomspace(1e-4, 60.0, 400), [0.0]])
+    try:
+        est = ex.estimate_ece(ec, "extract", ratio_n=ratio, texture=texture)
+    except InputError:
+        assert texture is None  # no stored conversion and nothing to dilute with
+        return
+    assert np.all(est.ece_dS_m >= ec)
+    for name, reg in ex.REGRESSIONS.items():
+        if not ex._same_ratio(reg.ratio_n, ex.parse_ratio(ratio)):
+            continue
+        kw = {"sp_pct": 40.0} if reg.form == "sp_factor" else {}
+        out = ex.estimate_ece(ec, "extract", ratio_n=ratio, method=name, **kw)
+        assert np.all(out.ece_dS_m >= ec), name
+
+
+def test_default_1to1_line_below_its_range_falls_back_and_says_so():
+    # PLoS ONE 2018 Table 2 ref [63]: 2.23 EC1:1 - 0.58 gave 0.089 at EC1:1
+    # 0.3 dS/m and 0 below 0.26. Below its range of use the same source's line
+    # through the origin (2.11 EC1:1, r2 0.98) takes over.
+    est = ex.estimate_ece([0.3, 0.2, 3.0], "extract", ratio_n=1)
+    rows = est.per_row()
+    assert list(rows["method"]) == ["regression:plos2018_ref63_1to1_combined_origin"] * 2 + [
+        "regression:plos2018_ref63_1to1_combined"]
+    np.testing.assert_allclose(est.ece_dS_m, [2.11 * 0.3, 2.11 * 0.2, 2.23 * 3.0 - 0.58])
+    assert list(rows["out_of_range"]) == [True, True, False]
+    assert "below" in rows["note"][0] and "range" in rows["note"][0]
+    assert "below" not in rows["note"][2]
+
+
+def test_line_below_range_uses_measured_sp_then_texture():
+    est = ex.estimate_ece(0.3, "extract", ratio_n=2, method="hogg_henry_1to2_medium",
+                          sp_pct=40.0)
+    assert est.per_row()["method"][()] == "sp_dilution"
+    assert float(est.ece_dS_m) == pytest.approx(0.3 * 200 / 40)
+    est = ex.estimate_ece(0.1, "extract", ratio_n=1, texture="clay")
+    # fine line (2.66, -0.97) is below its range at 0.1: dilution with the clay SP
+    assert est.per_row()["method"][()] == "sp_dilution:texture:clay"
+    est = ex.estimate_ece(0.3, "extract", ratio_n=2)
+    # no SP, no texture, no origin line for 1:2: the line's own ratio at its limit
+    reg = ex.REGRESSIONS["hogg_henry_1to2_medium"]
+    assert est.per_row()["method"][()] == "proportional_below_range:hogg_henry_1to2_medium"
+    assert float(est.ece_dS_m) == pytest.approx(0.3 * (reg.a + reg.b / reg.min_ec_dS_m))
+    # continuous at the limit
+    lim = reg.min_ec_dS_m
+    lo = float(ex.estimate_ece(lim * 0.9999, "extract", ratio_n=2).ece_dS_m)
+    hi = float(ex.estimate_ece(lim, "extract", ratio_n=2).ece_dS_m)
+    assert lo == pytest.approx(hi, rel=1e-3)
+
+
+def test_every_regression_row_states_its_range_basis():
+    for reg in ex.REGRESSIONS.values():
+        assert reg.range_basis, reg.name
+        if reg.b < 0:
+            assert reg.min_ec_dS_m == pytest.approx(4 * abs(reg.b) / reg.a, rel=1e-2)
 
 
 # ---------------------------------------------------------------------------

@@ -495,3 +495,55 @@ def test_fast_inversion_at_25C_equals_bisection(monkeypatch):
     slow = o.nacl_molality_from_ec25(ec, 25.0)
     assert not np.isnan(fast).any()
     np.testing.assert_allclose(fast, slow, rtol=1e-10, atol=1e-14)
+
+
+# --------------------------------------------------------------------------
+# sea-salt water: PSS-78 and the seawater route against IAPWS-08
+# --------------------------------------------------------------------------
+def _iapws08_psi_mpa(sp, temp_c):
+    """IAPWS-08 seawater (iapws) at Reference Salinity for practical salinity
+    sp (gsw), 0.101325 MPa; psi = -phi m_SW R T rho_w."""
+    sa = gsw.SR_from_SP(sp) / 1000.0
+    sw = iapws.SeaWater(T=temp_c + 273.15, P=0.101325, S=sa)
+    m_sw = sa / ((1.0 - sa) * 0.0314038218)
+    rho_w = _iapws95_liquid(temp_c).rho
+    return -sw.osm * m_sw * 8.314462618 * (temp_c + 273.15) * rho_w / 1e6
+
+
+@pytest.mark.parametrize("sp", [2.0, 5.0, 10.0, 20.0, 35.0, 40.0])
+@pytest.mark.parametrize("temp_c", [5.0, 15.0, 25.0, 35.0])
+def test_pss78_matches_teos10(sp, temp_c):
+    # TEOS-10 (gsw) conductivity of practical salinity sp at temp_c, 0 dbar,
+    # read back by our PSS-78 (UNESCO 1983 algorithm)
+    c = gsw.C_from_SP(sp, temp_c, 0.0)
+    assert float(o.practical_salinity_pss78(c, temp_c)) == pytest.approx(sp, abs=2e-3)
+
+
+@pytest.mark.parametrize("sp", [2.0, 5.0, 10.0, 20.0, 35.0, 40.0])
+@pytest.mark.parametrize("temp_c", [5.0, 15.0, 25.0, 35.0])
+def test_seawater_route_within_3_percent_of_iapws08(sp, temp_c):
+    # IAPWS-08 (iapws) as the oracle; conductivity from TEOS-10 (gsw).
+    # Measured: +2.0 to +2.8 % (more negative) across this grid.
+    c = gsw.C_from_SP(sp, temp_c, 0.0)
+    ref = _iapws08_psi_mpa(sp, temp_c)
+    psi = float(o.psi_s_seawater(c, temp_c))
+    assert psi == pytest.approx(ref, rel=3e-2)
+
+
+@pytest.mark.parametrize("sp", [5.0, 10.0])
+def test_seawater_route_beats_nacl_route_on_brackish_sea_salt_water(sp):
+    # the NaCl-equivalent route read sea-salt water +5.4 % (S 10) and +6.2 %
+    # (S 5) from IAPWS-08 at 25 °C; the seawater route must be closer
+    c25 = gsw.C_from_SP(sp, 25.0, 0.0)
+    ref = _iapws08_psi_mpa(sp, 25.0)
+    nacl = float(o.psi_s_nacl_pitzer(c25, 25.0))
+    sea = float(o.psi_s_seawater(c25, 25.0))
+    assert abs(nacl / ref - 1) > 0.05
+    assert abs(sea / ref - 1) < 0.03
+
+
+def test_seawater_route_nan_outside_pss78():
+    # PSS-78 holds for 2 <= S <= 42 and -2 to 35 °C
+    assert np.isnan(o.psi_s_seawater(gsw.C_from_SP(1.0, 25.0, 0.0), 25.0))
+    assert np.isnan(o.practical_salinity_pss78(gsw.C_from_SP(20.0, 25.0, 0.0), 40.0))
+    assert np.isnan(o.practical_salinity_pss78(80.0, 25.0))

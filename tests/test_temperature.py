@@ -143,9 +143,11 @@ def test_to_25_mixed_boolean_array():
     assert out[0] == pytest.approx(1.428, abs=5e-4)   # ISO 7888 f25(10)
     assert out[1] == 1.0                               # meter compensated
     assert out[2] == pytest.approx(1.116, abs=5e-4)   # ISO 7888 f25(20)
-    assert out[3] == pytest.approx(1.0 / 1.3)          # linear 2 %/°C outside ISO range
+    # beyond the table: ISO 7888's f25(35) = 0.822 carried on by the linear
+    # model (ISO 7888 / APHA 2510 B), 2 %/°C from 35 to 40 °C
+    assert out[3] == pytest.approx(0.822 * 1.2 / 1.3)
     labels = tc.applied_method(t, comp)
-    assert list(labels) == ["iso7888", "meter", "iso7888", "linear_outside_iso7888"]
+    assert list(labels) == ["iso7888", "meter", "iso7888", "iso7888_linear_beyond_table"]
 
 
 def test_to_25_linear_method():
@@ -258,3 +260,39 @@ def test_iso7888_f25_decreases_with_temperature(t1, t2):
     # ISO 7888: EC rises with temperature, so f25 falls (table is monotone)
     if t1 < t2:
         assert tc.iso7888_f25(t1) >= tc.iso7888_f25(t2)
+
+
+# --- beyond the stored ISO 7888 table -------------------------------------------
+
+def test_ec25_monotone_and_continuous_across_34_to_37_c():
+    # 1 dS/m read at 34-37 °C: EC25 must fall steadily with temperature and
+    # join the ISO 7888 table (f25(35) = 0.822, ISO 7888:1985) without a jump.
+    # The old rule gave 0.822 at 35.0 °C and 0.826 at 35.5 °C.
+    t = np.arange(34.0, 37.0001, 0.05)
+    ec25 = tc.to_25(np.ones_like(t), t, False)
+    assert np.all(np.diff(ec25) < 0)
+    assert float(tc.to_25(1.0, 35.0, False)) == pytest.approx(0.822, abs=1e-12)
+    step = float(tc.to_25(1.0, 35.0001, False)) - 0.822
+    assert -1e-5 < step < 0
+    assert float(tc.to_25(1.0, 35.5, False)) < 0.822
+
+
+def test_ec25_monotone_from_0_to_50_c_and_below_zero():
+    # continuous and monotone over the whole accepted range, the ISO 7888
+    # table values untouched inside it (f25(0) = 1.918, f25(25) = 1.000)
+    t = np.linspace(-5.0, 60.0, 1301)
+    f = tc.iso7888_f25_extended(t)
+    assert np.all(np.isfinite(f)) and np.all(np.diff(f) < 0)
+    assert float(tc.iso7888_f25_extended(0.0)) == pytest.approx(1.918)
+    assert float(tc.iso7888_f25_extended(25.0)) == pytest.approx(1.000)
+    # below the table the same anchored linear step: 1.918 x 0.5 / 0.4 at -5 °C
+    assert float(tc.iso7888_f25_extended(-5.0)) == pytest.approx(1.918 * 0.5 / 0.4)
+    assert list(tc.applied_method([-1.0, 0.0, 35.0, 35.1], False)) == [
+        "iso7888_linear_beyond_table", "iso7888", "iso7888", "iso7888_linear_beyond_table"]
+
+
+def test_extension_uses_the_readings_alpha():
+    # a user-set coefficient changes only the part beyond the table
+    assert float(tc.to_25(1.0, 40.0, False, alpha_per_c=0.0187)) == pytest.approx(
+        0.822 * (1 + 0.0187 * 10) / (1 + 0.0187 * 15))
+    assert float(tc.to_25(1.0, 30.0, False, alpha_per_c=0.0187)) == pytest.approx(0.903)

@@ -253,3 +253,27 @@ def test_cautions_defer_to_lab_and_advisers():
     for text in (tol.YIELD_CAUTION, tol.LEACHING_CAUTION):
         assert "extension" in text and ("licensed" in text)
     assert "laboratory" in tol.YIELD_CAUTION
+
+
+def test_every_crop_row_is_read_or_marked_unverified():
+    # every row either carries a source that was read or says "unverified"
+    # (the screen shows "unverified"); the disputed rows carry a note
+    for c in tol.CROPS.values():
+        if c.verified:
+            assert "(read)" in c.source, c.name
+        else:
+            assert "unverified" in c.source, c.name
+    for name in ("plum", "orange", "grapefruit", "peanut", "cowpea"):
+        assert tol.CROPS[name].note, name
+
+
+def test_corn_rows_against_plos_one_2018_table_3():
+    # PLoS ONE 13(6):e0198290 (2018) Table 3: corn ECe 1.7/2.5/3.8/5.9 dS/m at
+    # 0/10/25/50 % decline -> threshold 1.7, slope 50/(5.9 - 1.7) = 11.9 %/dS/m;
+    # the footnote quotes forage corn 1.8 dS/m and 7.5 %/dS/m
+    corn = tol.find_crop("corn")
+    assert corn.threshold_dS_m == 1.7
+    assert corn.slope_pct_per_dS_m == pytest.approx(50 / (5.9 - 1.7), abs=0.2)
+    forage = tol.find_crop("corn forage")
+    assert (forage.threshold_dS_m, forage.slope_pct_per_dS_m) == (1.8, 7.5)
+    assert forage.verified

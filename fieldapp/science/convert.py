@@ -60,6 +60,9 @@ class Batch:
     ece_method: np.ndarray
     crop: np.ndarray
     context: dict = field(default_factory=dict)
+    #: "sea_salt" where the user says the water is sea-salt-like (coastal
+    #: wells, seawater intrusion); None otherwise.
+    salt_type: np.ndarray | None = None
 
     def __len__(self) -> int:
         return int(self.value.shape[0])
@@ -90,7 +93,7 @@ CONTEXT_OBJECT = ("meter_units", "replicate_others")
 def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
                compensated=False, sp_pct=None, texture=None, tds_factor=None,
                theta_g_pct=None, matric_MPa=None, ece_method=None, crop=None,
-               context: dict | None = None) -> Batch:
+               context: dict | None = None, salt_type=None) -> Batch:
     """Broadcast scalars and columns into a :class:`Batch` of equal-length arrays."""
     value = np.atleast_1d(np.asarray(value, dtype=float))
     n = value.shape[0]
@@ -111,6 +114,7 @@ def make_batch(value, unit, sample="paste", ratio_n=None, temp_c=None,
         ece_method=_col(ece_method, n, object, None),
         crop=_col(crop, n, object, None),
         context=_context(context or {}, n),
+        salt_type=_col(salt_type, n, object, None),
     )
 
 
@@ -215,6 +219,7 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
 
     # 2. temperature -> EC at 25 °C
     ec25 = temperature.to_25(ec_dS_m, b.temp_c, b.compensated)
+    temp_method = temperature.applied_method(b.temp_c, b.compensated).astype(object)
     with np.errstate(divide="ignore", invalid="ignore"):
         comp_factor = np.where(ec_dS_m > 0, ec25 / ec_dS_m, np.nan)
 
@@ -222,6 +227,9 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     ece = np.full(n, np.nan)
     ece_method = np.full(n, None, dtype=object)
     ece_unc = np.full(n, np.nan)
+    ece_note = np.full(n, None, dtype=object)
+    ece_basis = np.full(n, None, dtype=object)
+    ece_oor = np.zeros(n, dtype=bool)
     for (kind, r, sp, tex, meth), rows in _groups(b.sample, b.ratio_n, b.sp_pct,
                                                   b.texture, b.ece_method):
         if kind not in extracts.SAMPLE_KINDS:
@@ -234,8 +242,13 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
             sp_pct=None if math.isnan(sp) else sp,
             texture=tex or None, method=meth or None)
         ece[rows] = est.ece_dS_m
-        ece_method[rows] = est.method
-        ece_unc[rows] = np.nan if est.uncertainty_pct is None else est.uncertainty_pct
+        pr = est.per_row()
+        ece_method[rows] = pr["method"]
+        ece_unc[rows] = pr["uncertainty_pct"]
+        if est.method is not None:
+            ece_note[rows] = pr["note"]
+            ece_basis[rows] = pr["basis"]
+        ece_oor[rows] = pr["out_of_range"]
 
     # 4. solute potential of the solution that matters: ECe for soil, the
     #    sample itself for waters, feeds, leachates and saturated media extracts.
@@ -250,6 +263,25 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     psi_s = np.where(use_fb, routes[fallback], psi_default)
     psi_method = np.where(np.isnan(psi_s), None,
                           np.where(use_fb, fallback, osmotic.DEFAULT_ROUTE)).astype(object)
+
+    # 4b. sea-salt water: PSS-78 salinity and the seawater route, beside the
+    #     NaCl route, only where the user says the water is sea-salt-like.
+    #     A solution read without compensation at a known temperature goes
+    #     into PSS-78 as read (the scale's own temperature correction);
+    #     otherwise its value at 25 °C.
+    salinity = np.full(n, np.nan)
+    psi_sea = np.full(n, np.nan)
+    salt = b.salt_type if b.salt_type is not None else np.full(n, None, dtype=object)
+    sea = np.flatnonzero(salt == "sea_salt")
+    if sea.size:
+        raw = (~b.compensated[sea]) & ~np.isnan(b.temp_c[sea]) & is_solution[sea]
+        c_in = np.where(raw, ec_dS_m[sea], basis[sea])
+        t_in = np.where(raw, b.temp_c[sea], 25.0)
+        salinity[sea] = osmotic.practical_salinity_pss78(c_in, t_in)
+        psi_sea[sea] = osmotic.psi_s_seawater(c_in, t_soln[sea], t_in)
+        ok = sea[~np.isnan(psi_sea[sea])]
+        psi_s[ok] = psi_sea[ok]
+        psi_method[ok] = osmotic.SEAWATER_ROUTE
 
     # 5. soil solution (soil kinds only; computed on those rows alone)
     ec_fc = np.full(n, np.nan)
@@ -310,9 +342,16 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
         "ece_dS_m": ece,
         "ece_method": ece_method,
         "ece_uncertainty_pct": ece_unc,
+        "ece_uncertainty_basis": ece_basis,
+        "ece_note": ece_note,
+        "ece_out_of_range": ece_oor,
         "psi_s_MPa": psi_s,
         "psi_s_method": psi_method,
         **{f"psi_s_{k}_MPa": v for k, v in routes.items()},
+        f"psi_s_{osmotic.SEAWATER_ROUTE}_MPa": psi_sea,
+        "salinity_pss78": salinity,
+        "salt_type": salt,
+        "temp_method": temp_method,
         "tds_mg_L": units.tds_mg_L_from_ec(ec25),
         "cations_meq_L": units.cations_meq_L_from_ec(ec25),
         "ec_fc_dS_m": ec_fc,
@@ -434,10 +473,28 @@ def validate_reading(d: dict) -> dict:
     if crop:
         crop = tolerance.find_crop(crop).name
     method = (d.get("ece_method") or "").strip() or None
+    salt_type = parse_salt_type(d.get("salt_type"))
     return dict(value=value, unit=unit, sample=sample, ratio_n=ratio_n, temp_c=temp_c,
                 compensated=parse_bool(d.get("compensated")), sp_pct=sp, texture=texture,
                 tds_factor=tds_factor, theta_g_pct=theta, matric_MPa=matric,
-                ece_method=method, crop=crop)
+                ece_method=method, crop=crop, salt_type=salt_type)
+
+
+#: Accepted spellings of the one salt type with its own route.
+SALT_TYPES = {"sea_salt": "sea_salt", "sea salt": "sea_salt", "seawater": "sea_salt",
+              "sea": "sea_salt", "sea_water": "sea_salt"}
+
+
+def parse_salt_type(x) -> str | None:
+    """None (mixed salts or unknown: the NaCl and Handbook 60 routes) or
+    "sea_salt" (coastal wells, seawater intrusion: the PSS-78 seawater route
+    is added beside the NaCl route)."""
+    if x is None or (isinstance(x, str) and x.strip().lower() in ("", "mixed", "nacl", "none")):
+        return None
+    if isinstance(x, str) and x.strip().lower() in SALT_TYPES:
+        return SALT_TYPES[x.strip().lower()]
+    raise InputError("Salt type must be empty (mixed salts) or sea_salt (water like "
+                     "diluted seawater: coastal wells, seawater intrusion).", "salt_type")
 
 
 def round_sig(x, digits: int = 6):
@@ -465,6 +522,8 @@ def crop_summary(c) -> dict:
         "ece_at_yield_dS_m": {str(p): round_sig(tolerance.ece_at_yield(c, p), 3)
                               for p in (100, 90, 75, 50)},
         "source": c.source,
+        "source_status": "read" if c.verified else "unverified",
+        "note": c.note or None,
     }
 
 
@@ -536,12 +595,31 @@ def convert_readings(ds: list[dict]) -> list[dict]:
     floats = ("ratio_n", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa")
     for k in floats:
         cols[k] = np.array([np.nan if v is None else v for v in cols[k]], dtype=float)
-    for k in ("unit", "sample", "texture", "ece_method", "crop"):
+    for k in ("unit", "sample", "texture", "ece_method", "crop", "salt_type"):
         arr = np.empty(len(kws), dtype=object)
         arr[:] = cols[k]
         cols[k] = arr
     out = convert_batch(make_batch(**cols))
     return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
+
+
+TDS_ESTIMATE_LABEL = ("TDS estimated from EC at 25 °C by USDA Handbook 60 "
+                      "(640 mg/L per dS/m); an estimate, not a measurement")
+
+
+def tds_block(kw: dict, row: dict) -> dict:
+    """The two TDS figures, each labelled: what a TDS meter displayed (with its
+    factor), and the Handbook 60 estimate from EC25. Never two bare numbers."""
+    meter = None
+    if row.get("unit_kind") == "tds":
+        f = kw.get("tds_factor")
+        meter = {"value": kw["value"], "unit": row["unit_canonical"], "factor": f,
+                 "label": f"TDS as the meter displayed it ({kw['value']:g} "
+                          f"{row['unit_canonical']}, meter factor {f:g} mg/L per µS/cm)"}
+    return {"meter": meter,
+            "estimate_mg_L": _num(row["tds_mg_L"], 4),
+            "estimate_method": "tds_estimate_handbook60",
+            "estimate_label": TDS_ESTIMATE_LABEL}
 
 
 def result_for_row(out: dict, i: int, kw: dict) -> dict:
@@ -557,6 +635,7 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
             "sp": kw["sp_pct"], "texture": kw["texture"], "tds_factor": kw["tds_factor"],
             "theta_g_pct": kw["theta_g_pct"], "matric_MPa": kw["matric_MPa"],
             "crop": crop, "ece_method": kw["ece_method"],
+            "salt_type": kw.get("salt_type"),
         },
         "unit_canonical": row["unit_canonical"],
         "unit_note": row["unit_note"],
@@ -564,13 +643,20 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
         "ec25_dS_m": _num(row["ec25_dS_m"]),
         "ec25_uS_cm": _num(row["ec25_dS_m"] * 1000.0),
         "compensation_factor": _num(row["compensation_factor"], 4),
+        "temp_method": row["temp_method"],
         "ece_dS_m": _num(row["ece_dS_m"]),
         "ece_method": row["ece_method"],
         "ece_uncertainty_pct": _num(row["ece_uncertainty_pct"], 3),
+        "ece_uncertainty_basis": row["ece_uncertainty_basis"],
+        "ece_note": row["ece_note"],
+        "ece_out_of_range": bool(row["ece_out_of_range"]),
         "psi_s_MPa": _num(row["psi_s_MPa"], 4),
         "psi_s_method": row["psi_s_method"],
-        "psi_s_by_method": {k: _num(row[f"psi_s_{k}_MPa"], 4) for k in osmotic.PSI_S_ROUTES},
+        "psi_s_by_method": {k: _num(row[f"psi_s_{k}_MPa"], 4)
+                            for k in (*osmotic.PSI_S_ROUTES, osmotic.SEAWATER_ROUTE)},
+        "salinity_pss78": _num(row["salinity_pss78"], 4),
         "tds_mg_L": _num(row["tds_mg_L"], 4),
+        "tds": tds_block(kw, row),
         "cations_meq_L": _num(row["cations_meq_L"], 4),
         "soil_solution": None,
         "soil_class": row["soil_class"],

@@ -15,7 +15,13 @@ Routes (see :func:`estimate_ece`):
 * ``paste``        the reading already is ECe.
 * ``sp_dilution``  ECe ≈ EC(1:N) · 100·N / SP (ideal dilution; needs SP or texture).
 * ``regression:<name>``  a published empirical line for one ratio (data table
-  ``fieldapp/data/ece_regressions.csv``).
+  ``fieldapp/data/ece_regressions.csv``), within its range of use; with only a
+  texture, 1:5 uses Slavich and Petterson (1993) and 1:1/1:2 the Hogg and Henry
+  (1984) line of the texture group.
+* ``proportional_below_range:<name>``  below a line's range of use with
+  nothing else known: the line's ECe/EC ratio at its lower limit.
+
+No ECe is below the EC of the extract it came from.
 
 Tables: ``textures.csv`` (saturation percentage by USDA texture class),
 ``ece_regressions.csv``, ``substrate_ranges.csv`` (interpretation of substrate
@@ -187,6 +193,8 @@ class Texture:
     sp_low_pct: float
     sp_high_pct: float
     source: str
+    #: "derived" (computed from a read table by a stated rule) or "unverified".
+    verified: str = "unverified"
 
 
 def _norm(name: str) -> str:
@@ -197,7 +205,7 @@ def _norm(name: str) -> str:
 
 TEXTURES: dict[str, Texture] = {
     r["name"]: Texture(r["name"], float(r["sp_pct"]), float(r["sp_low_pct"]),
-                       float(r["sp_high_pct"]), r["source"])
+                       float(r["sp_high_pct"]), r["source"], r.get("verified") or "unverified")
     for r in load_table("textures")
 }
 _TEXTURE_KEYS = {_norm(k).replace(" ", ""): k for k in TEXTURES}
@@ -345,6 +353,10 @@ class Regression:
     uncertainty_pct: float | None
     default_for_ratio: bool
     source: str
+    #: Lowest EC(1:N), dS/m, where the line is used; below it the estimate
+    #: falls back to a method that holds there (see :func:`estimate_ece`).
+    min_ec_dS_m: float = 0.0
+    range_basis: str = ""
 
     @property
     def label(self) -> str:
@@ -377,7 +389,8 @@ REGRESSIONS: dict[str, Regression] = {
         soils=r["soils"], n_samples=_opt_int(r["n_samples"]), r2=_opt_float(r["r2"]),
         uncertainty_pct=_opt_float(r["uncertainty_pct"]),
         default_for_ratio=r["default_for_ratio"].lower() in ("yes", "true", "1"),
-        source=r["source"])
+        source=r["source"], min_ec_dS_m=_opt_float(r.get("min_ec_dS_m")) or 0.0,
+        range_basis=r.get("range_basis", ""))
     for r in load_table("ece_regressions")
 }
 for _r in REGRESSIONS.values():
@@ -468,6 +481,92 @@ ECE_METHODS: dict[str, str] = {
 }
 
 # --------------------------------------------------------------------------
+# ECe estimation: texture-dependent published relations
+# --------------------------------------------------------------------------
+
+#: The published relation used for a 1:N extract when only the texture is
+#: known, by ratio. 1:5: Slavich and Petterson (1993), f = 2.46 + 3.03/θSP
+#: with θSP the class-typical SP of ``textures.csv``. 1:1 and 1:2: Hogg and
+#: Henry (1984) lines for coarse, medium and fine soils.
+SLAVICH_PETTERSON = "slavich_petterson_1993_1to5"
+
+#: Texture class -> Hogg and Henry (1984) texture group. The three groups
+#: are named coarse/medium/fine in PLoS ONE 13(6):e0198290 Table 2 without
+#: class limits; the assignment of the twelve USDA classes is this
+#: project's (common practice: sands and sandy loams coarse, loams and silts
+#: medium, clay loams and clays fine).
+HOGG_HENRY_GROUP = {
+    "sand": "coarse", "loamy sand": "coarse", "sandy loam": "coarse",
+    "loam": "medium", "silt loam": "medium", "silt": "medium", "sandy clay loam": "medium",
+    "clay loam": "fine", "silty clay loam": "fine", "sandy clay": "fine",
+    "silty clay": "fine", "clay": "fine",
+}
+
+#: 1:1 extract, nothing known about the soil, EC below the default line's
+#: range: the same source's line fitted through the origin.
+ORIGIN_FALLBACK = {1.0: "plos2018_ref63_1to1_combined_origin"}
+
+
+def slavich_petterson_factor(sp_pct) -> np.ndarray:
+    r"""Slavich and Petterson (1993) factor f in ECe = f · EC1:5.
+
+    .. math:: f = 2.46 + \frac{3.03}{\theta_{SP}},\qquad \theta_{SP} = SP/100\ \text{kg/kg}
+
+    Parameters
+    ----------
+    sp_pct : array_like
+        Saturation percentage, g water per 100 g oven-dry soil.
+
+    Returns
+    -------
+    numpy.ndarray
+        f, dimensionless. Below the ideal-dilution factor 500/SP for every
+        SP above about 20 %, because EC per unit salt rises on dilution.
+
+    Notes
+    -----
+    Fitted on Australian soils; the abstract states no error figure and warns
+    that the uncertainty of θSP estimated from texture "could be significant
+    in sandy soils".
+
+    References
+    ----------
+    Slavich, P.G., Petterson, G.H. 1993. Estimating the electrical
+    conductivity of saturated paste extracts from 1:5 soil:water suspensions
+    and texture. Aust. J. Soil Res. 31: 73-81 (abstract read on scilit.net;
+    journal pages not read).
+
+    Examples
+    --------
+    >>> round(float(slavich_petterson_factor(18.0)), 2)   # sand, SP 18 %
+    19.29
+    >>> round(float(slavich_petterson_factor(39.0)), 2)   # loam, SP 39 %
+    10.23
+    """
+    sp = np.asarray(sp_pct, dtype=np.float64)
+    reg = REGRESSIONS[SLAVICH_PETTERSON]
+    return reg.a + reg.b / (sp / 100.0)
+
+
+def _texture_spread_pct(tex: Texture) -> float:
+    """± % of the Slavich-Petterson factor over the texture's SP range."""
+    f = float(slavich_petterson_factor(tex.sp_pct))
+    lo = float(slavich_petterson_factor(tex.sp_high_pct))
+    hi = float(slavich_petterson_factor(tex.sp_low_pct))
+    return round(100.0 * max(hi / f - 1.0, 1.0 - lo / f), 1)
+
+
+def hogg_henry_for_texture(n, texture) -> Regression | None:
+    """The Hogg and Henry (1984) line for a 1:1 or 1:2 extract of a texture class."""
+    n = parse_ratio(n)
+    tex = find_texture(texture)
+    ratio = "1to1" if _same_ratio(n, 1.0) else "1to2" if _same_ratio(n, 2.0) else None
+    if ratio is None:
+        return None
+    return REGRESSIONS.get(f"hogg_henry_{ratio}_{HOGG_HENRY_GROUP[tex.name]}")
+
+
+# --------------------------------------------------------------------------
 # ECe estimation: routing
 # --------------------------------------------------------------------------
 
@@ -477,11 +576,16 @@ class EceEstimate:
     """Result of :func:`estimate_ece`.
 
     ``ece_dS_m`` is NaN where ECe is not meaningful (waters, feeds, substrates).
-    ``method`` names the route ("paste", "sp_dilution",
-    "sp_dilution:texture:<name>", "regression:<name>") or None.
-    ``uncertainty_pct`` is the expected ± relative uncertainty of the route
-    (None when unknown or not applicable); ``uncertainty_basis`` says where it
-    comes from. ``note`` is one or two plain sentences for the screen.
+    ``method`` names the route of most rows ("paste", "sp_dilution",
+    "sp_dilution:texture:<name>", "regression:<name>",
+    "proportional_below_range:<name>") or None; ``methods`` gives it per row,
+    because rows below a regression's range of use fall back to another
+    route. ``uncertainty_pct`` is the expected ± relative uncertainty of the
+    route (None when unknown or not applicable), per row in
+    ``uncertainties`` (NaN unknown); ``uncertainty_basis`` says where it
+    comes from. ``note`` is one or two plain sentences for the screen, per
+    row in ``notes``; ``out_of_range`` marks rows whose first-choice
+    regression was outside its range of use.
     """
     ece_dS_m: np.ndarray
     method: str | None
@@ -489,6 +593,158 @@ class EceEstimate:
     note: str
     uncertainty_basis: str | None = None
     sp_pct: float | None = None
+    methods: np.ndarray | None = None
+    uncertainties: np.ndarray | None = None
+    notes: np.ndarray | None = None
+    bases: np.ndarray | None = None
+    out_of_range: np.ndarray | None = None
+
+    def per_row(self) -> dict[str, np.ndarray]:
+        """Per-row method, uncertainty (NaN unknown), note, basis and range mark."""
+        shape = np.shape(self.ece_dS_m)
+
+        def full(v, dtype=object):
+            a = np.empty(shape, dtype=dtype)
+            a[...] = v
+            return a
+        unc = np.nan if self.uncertainty_pct is None else self.uncertainty_pct
+        return {
+            "method": self.methods if self.methods is not None else full(self.method),
+            "uncertainty_pct": (self.uncertainties if self.uncertainties is not None
+                                else full(unc, float)),
+            "note": self.notes if self.notes is not None else full(self.note),
+            "basis": self.bases if self.bases is not None else full(self.uncertainty_basis),
+            "out_of_range": (self.out_of_range if self.out_of_range is not None
+                             else full(False, bool)),
+        }
+
+
+@dataclass
+class _Route:
+    """One route's answer for some rows (internal)."""
+    ece: np.ndarray
+    method: str
+    unc: float | None
+    note: str
+    basis: str | None
+    sp: float | None = None
+
+
+def _sp_route(ec, n, sp) -> _Route:
+    return _Route(ece_sp_dilution(ec, n, sp), "sp_dilution", SP_DILUTION_UNCERTAINTY_PCT,
+                  f"Dilution estimate from 1:{n:g} with SP {sp:g} %.",
+                  SP_DILUTION_UNCERTAINTY_SOURCE, sp)
+
+
+def _texture_route(ec, n, tex: Texture) -> tuple[_Route, Regression | None]:
+    """The published texture-dependent relation for 1:N, or dilution with the
+    class SP where none is stored. Returns the route and the line used (for
+    its range of use) or None."""
+    if _same_ratio(n, 5.0):
+        reg = REGRESSIONS[SLAVICH_PETTERSON]
+        f = float(slavich_petterson_factor(tex.sp_pct))
+        return _Route(
+            ec * f, f"regression:{reg.name}", _texture_spread_pct(tex),
+            f"Estimated with Slavich and Petterson 1993 (Australian soils), "
+            f"ECe = (2.46 + 3.03/θSP) × EC1:5, with the typical SP of {tex.name} "
+            f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %): factor "
+            f"{f:.3g}; a measured SP is better.",
+            "spread of the Slavich and Petterson factor over the texture's SP range "
+            f"({tex.sp_low_pct:g}-{tex.sp_high_pct:g} %); the paper states no error and "
+            "warns it can be significant in sandy soils", tex.sp_pct), reg
+    hh = hogg_henry_for_texture(n, tex.name)
+    if hh is not None:
+        unc, basis = hh.expected_uncertainty()
+        return _Route(ece_regression(ec, hh.name), f"regression:{hh.name}", unc,
+                      f"Estimated with {hh.label}, chosen for {tex.name} "
+                      f"({HOGG_HENRY_GROUP[tex.name]} texture).", basis, tex.sp_pct), hh
+    return _Route(ece_sp_dilution(ec, n, tex.sp_pct), f"sp_dilution:texture:{tex.name}",
+                  SP_DILUTION_UNCERTAINTY_PCT,
+                  f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
+                  f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %); no "
+                  f"published texture relation is stored for 1:{n:g}; a measured SP is "
+                  "better.", SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
+                  tex.sp_pct), None
+
+
+def _below_range_route(ec, n, reg: Regression, sp, tex) -> _Route:
+    """What replaces a line below its range of use: the measured SP, else the
+    texture's relation, else the same source's line through the origin, else
+    the line's own ECe/EC ratio at its lower limit held constant below it."""
+    lim = reg.min_ec_dS_m
+    why = (f"EC1:{n:g} is below {lim:.3g} dS/m, the lowest value where {reg.label} is "
+           f"used ({reg.range_basis}); ")
+    if sp is not None:
+        r = _sp_route(ec, n, sp)
+        r.note = why + "estimated by dilution with the SP instead. " + r.note
+        return r
+    if tex is not None:
+        r, treg = _texture_route(ec, n, tex)
+        if treg is None or treg.min_ec_dS_m == 0.0 or treg.name == reg.name:
+            if treg is not None and treg.name == reg.name:
+                r = _Route(ece_sp_dilution(ec, n, tex.sp_pct),
+                           f"sp_dilution:texture:{tex.name}", SP_DILUTION_UNCERTAINTY_PCT,
+                           f"Dilution estimate with the typical SP of {tex.name} "
+                           f"({tex.sp_pct:g} %).",
+                           SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
+                           tex.sp_pct)
+            r.note = why + "estimated instead as follows. " + r.note
+            return r
+    origin = ORIGIN_FALLBACK.get(float(n)) if _same_ratio(n, round(n)) else None
+    if origin and origin != reg.name:
+        o = REGRESSIONS[origin]
+        unc, basis = o.expected_uncertainty()
+        return _Route(ece_regression(ec, o.name), f"regression:{o.name}", unc,
+                      why + f"estimated with the same source's line through the origin, "
+                      f"{o.label}.", basis)
+    ratio = reg.a + reg.b / lim
+    return _Route(ec * ratio, f"proportional_below_range:{reg.name}", None,
+                  why + f"estimated as {ratio:.3g} × EC1:{n:g}, the line's own ECe/EC ratio "
+                  f"at that limit, held constant below it; adding SP or texture gives a "
+                  f"better estimate.",
+                  "not known below the line's range of use")
+
+
+def _line_route(ec, n, reg: Regression, sp_for_reg, note: str) -> _Route:
+    unc, basis = reg.expected_uncertainty()
+    return _Route(ece_regression(ec, reg.name, sp_pct=sp_for_reg), f"regression:{reg.name}",
+                  unc, note, basis, sp_for_reg)
+
+
+def _combine(ec, first: _Route, below: np.ndarray, fallback: _Route | None,
+             n: float) -> EceEstimate:
+    """Rows below the range take the fallback; every row is held at or above
+    the extract's own EC (a paste is never more dilute than a 1:N extract of
+    the same mineral soil, N >= 1)."""
+    shape = ec.shape
+    ece = np.array(first.ece, dtype=float, copy=True)
+    methods = np.empty(shape, dtype=object)
+    methods[...] = first.method
+    unc = np.full(shape, np.nan if first.unc is None else first.unc)
+    notes = np.empty(shape, dtype=object)
+    notes[...] = first.note
+    bases = np.empty(shape, dtype=object)
+    bases[...] = first.basis
+    if fallback is not None and below.any():
+        ece[below] = np.asarray(fallback.ece)[below]
+        methods[below] = fallback.method
+        unc[below] = np.nan if fallback.unc is None else fallback.unc
+        notes[below] = fallback.note
+        bases[below] = fallback.basis
+    floor = ~np.isnan(ece) & (ece < ec)
+    if floor.any():
+        ece[floor] = ec[floor]
+        notes[floor] = notes[floor] + (
+            f" Held at the EC of the 1:{n:g} extract itself: a saturated paste of a "
+            "mineral soil is never more dilute than the extract.")
+    notes = np.array([f"{t} {ESTIMATE_CAUTION}" for t in notes.ravel()],
+                     dtype=object).reshape(shape)
+    main = 0
+    if below.any() and below.mean() > 0.5 and fallback is not None:
+        main = 1
+    r = (first, fallback)[main]
+    return EceEstimate(ece, r.method, r.unc, f"{r.note} {ESTIMATE_CAUTION}", r.basis, r.sp,
+                       methods, unc, notes, bases, below.copy())
 
 
 def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None,
@@ -505,12 +761,20 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
          ``ratio_n`` within 1 % (when ``ratio_n`` is omitted the regression's
          own ratio is taken).
       2. else ``sp_pct`` given -> ideal dilution with that SP.
-      3. else ``texture`` given -> ideal dilution with the class-typical SP
+      3. else ``texture`` given -> the published texture-dependent relation:
+         1:5 Slavich and Petterson (1993) with the class-typical SP; 1:1 and
+         1:2 the Hogg and Henry (1984) line of the texture's group; other
+         ratios ideal dilution with the class SP
          (method "sp_dilution:texture:<name>").
       4. else the default published regression for that ratio, if any.
       5. else :class:`InputError` (field "sp") asking for SP or texture.
 
-      ``method="sp_dilution"`` forces route 2/3.
+      ``method="sp_dilution"`` forces route 2/3 by dilution. A line used
+      below its range of use (``Regression.min_ec_dS_m``) is replaced on
+      those rows by the measured SP, else the texture's relation, else the
+      same source's line through the origin (1:1), else the line's own
+      ECe/EC ratio at the limit ("proportional_below_range:<name>"), and
+      the row's note says so. No extract's ECe is below its own EC.
     * ``water``, ``feed``, ``leachate``, ``drain``, ``sme``, ``media``: no soil
       ECe (NaN, method None); substrates and solutions are interpreted on
       their own scales.
@@ -533,6 +797,12 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
     Returns
     -------
     EceEstimate
+
+    Examples
+    --------
+    >>> e = estimate_ece([0.2], "extract", ratio_n="1:5", texture="sand")
+    >>> e.method, round(float(e.ece_dS_m[0]), 2)
+    ('regression:slavich_petterson_1993_1to5', 3.86)
     """
     ec = _as_ec(ec25_dS_m)
     kind = SAMPLE_KINDS.get(str(sample or "").strip().lower())
@@ -558,6 +828,11 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
     if meth == "paste":
         raise InputError("'paste' is for saturated paste extracts; for a 1:N extract "
                          "choose sp_dilution or a regression.", "method")
+    sp = _check_sp(sp_pct) if sp_pct is not None else None
+    if meth is not None and meth.startswith("sp_dilution:texture:") and texture is None:
+        texture = meth.split(":", 2)[2]
+    tex = find_texture(texture) if texture else None
+    nobelow = np.zeros(ec.shape, dtype=bool)
 
     if meth is not None and meth != "sp_dilution" and not meth.startswith("sp_dilution:"):
         reg = find_regression(meth)
@@ -569,47 +844,43 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
                 f"choose a method for 1:{n:g} or correct the ratio.", "method")
         sp_for_reg = None
         if reg.form == "sp_factor":
-            if sp_pct is not None:
-                sp_for_reg = _check_sp(sp_pct)
-            elif texture:
-                sp_for_reg = sp_for_texture(texture)
-        ece = ece_regression(ec, reg.name, sp_pct=sp_for_reg)
-        unc, basis = reg.expected_uncertainty()
-        return EceEstimate(ece, f"regression:{reg.name}", unc,
-                           f"Estimated with {reg.label}. {ESTIMATE_CAUTION}", basis, sp_for_reg)
+            sp_for_reg = sp if sp is not None else (tex.sp_pct if tex else None)
+        first = _line_route(ec, n, reg, sp_for_reg, f"Estimated with {reg.label}.")
+        below = ec < reg.min_ec_dS_m
+        fb = _below_range_route(ec, n, reg, sp, tex) if below.any() else None
+        return _combine(ec, first, below, fb, n)
 
     if n is None:
         raise InputError("A soil:water extract needs its ratio; type it as 1:N, "
                          "e.g. 1:1, 1:2 or 1:5.", "ratio")
 
-    if meth is not None and meth.startswith("sp_dilution:texture:") and texture is None:
-        texture = meth.split(":", 2)[2]
-
-    if sp_pct is not None:
-        sp = _check_sp(sp_pct)
-        return EceEstimate(ece_sp_dilution(ec, n, sp), "sp_dilution",
-                           SP_DILUTION_UNCERTAINTY_PCT,
-                           f"Dilution estimate from 1:{n:g} with SP {sp:g} %. {ESTIMATE_CAUTION}",
-                           SP_DILUTION_UNCERTAINTY_SOURCE, sp)
-    if texture:
-        tex = find_texture(texture)
-        return EceEstimate(ece_sp_dilution(ec, n, tex.sp_pct),
+    if sp is not None:
+        return _combine(ec, _sp_route(ec, n, sp), nobelow, None, n)
+    if tex is not None:
+        if meth is not None:   # dilution asked for by name
+            first = _Route(ece_sp_dilution(ec, n, tex.sp_pct),
                            f"sp_dilution:texture:{tex.name}", SP_DILUTION_UNCERTAINTY_PCT,
                            f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
-                           f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %); "
-                           f"a measured SP is better. {ESTIMATE_CAUTION}",
+                           f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} "
+                           "%); a measured SP is better.",
                            SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
                            tex.sp_pct)
+            return _combine(ec, first, nobelow, None, n)
+        first, treg = _texture_route(ec, n, tex)
+        below = ec < treg.min_ec_dS_m if treg is not None else nobelow
+        fb = _below_range_route(ec, n, treg, None, tex) if below.any() else None
+        return _combine(ec, first, below, fb, n)
     if meth is not None:  # sp_dilution asked for, but nothing to dilute with
         raise InputError("The dilution method needs the saturation percentage (SP, %) or "
                          "the soil texture; type one of them.", "sp")
     reg = default_regression(n)
     if reg is not None:
-        ece = ece_regression(ec, reg.name)
-        unc, basis = reg.expected_uncertainty()
-        return EceEstimate(ece, f"regression:{reg.name}", unc,
-                           f"Estimated with {reg.label}; adding SP or texture allows a "
-                           f"dilution estimate. {ESTIMATE_CAUTION}", basis)
+        first = _line_route(ec, n, reg, None,
+                            f"Estimated with {reg.label}; adding SP or texture allows a "
+                            "better estimate.")
+        below = ec < reg.min_ec_dS_m
+        fb = _below_range_route(ec, n, reg, None, None) if below.any() else None
+        return _combine(ec, first, below, fb, n)
     raise InputError(f"No published conversion is stored for 1:{n:g} extracts: type the "
                      "saturation percentage (SP, %) or choose the soil texture.", "sp")
 
@@ -627,11 +898,13 @@ class SubstrateRange:
     lo_dS_m: float
     hi_dS_m: float  # math.inf for the open top band
     source: str
+    verified: str = "unverified"
 
 
 _SUBSTRATE_ROWS = [
     SubstrateRange(r["method"], r["level"], float(r["lo_dS_m"]),
-                   float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"])
+                   float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"],
+                   r.get("verified") or "unverified")
     for r in load_table("substrate_ranges")
 ]
 SUBSTRATE_METHODS: tuple[str, ...] = tuple(dict.fromkeys(r.method for r in _SUBSTRATE_ROWS))

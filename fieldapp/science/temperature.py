@@ -7,8 +7,14 @@ it is referred to 25 °C, the reference temperature of salinity tables
 those that do not, the app applies one of two published models:
 
 * ``iso7888`` - the non-linear factor f25 for natural waters tabulated in
-  ISO 7888:1985 (EN 27888:1993), 0 to 35 °C. Suited to ground, surface and
-  irrigation water and to dilute soil extracts.
+  ISO 7888:1985 (EN 27888:1993). Suited to ground, surface and irrigation
+  water and to dilute soil extracts. The standard tabulates 0.0-35.9 °C in
+  0.1 °C steps; the whole-degree values 0-35 °C were read and are stored
+  here (interpolated linearly between them). Beyond the stored table the
+  factor is continued by the linear model anchored at the table's end
+  (see :func:`iso7888_f25_extended`), so the result stays continuous and
+  monotone from -5 to 60 °C; the result names that method
+  (``iso7888_linear_beyond_table``).
 * ``linear`` - EC25 = EC_T / (1 + α (T − 25)), the constant-coefficient
   model described in ISO 7888 and APHA Standard Methods 2510; α about
   0.019 to 0.021 per °C for natural waters (common practice; the default
@@ -54,8 +60,8 @@ ALPHA_RANGE_PER_C = (0.0, 0.1)
 TEMP_RANGE_C = (-5.0, 60.0)
 
 COMPENSATION_METHODS: dict[str, str] = {
-    "iso7888": "Non-linear natural-water factor of ISO 7888 (0-35 °C); "
-               "linear 2 %/°C outside that range.",
+    "iso7888": "Non-linear natural-water factor of ISO 7888 (table 0-35 °C); beyond the "
+               "table, the linear model continued from the table's end value.",
     "linear": "Linear: EC25 = EC / (1 + α (T − 25)), α set per reading "
               "(default 0.02 per °C).",
 }
@@ -162,6 +168,49 @@ def iso7888_f25(temp_c) -> np.ndarray:
     return np.where(inside, f, np.nan)
 
 
+def iso7888_f25_extended(temp_c, alpha_per_c=DEFAULT_ALPHA_PER_C) -> np.ndarray:
+    r"""ISO 7888 f25 inside the stored table, continued beyond it by the linear model.
+
+    Equation, with T_end the nearer end of the stored table (0 or 35 °C):
+
+    .. math:: f_{25}(T) = f_{25}(T_{end})\,
+              \frac{1 + \alpha (T_{end} - 25)}{1 + \alpha (T - 25)}
+
+    i.e. the linear temperature model of ISO 7888 / APHA Standard Methods
+    2510 B (EC25 = EC_T / (1 + α (T − 25))) applied to the step from the
+    table's end to T, so the factor is continuous at the end of the table
+    and falls monotonically with T for any α > 0 (the old rule, linear from
+    25 °C, jumped the wrong way at 35 °C: 0.822 at 35.0 °C, 0.826 at 35.5).
+
+    Parameters
+    ----------
+    temp_c : array-like, °C
+    alpha_per_c : float or array-like, per °C (default 0.02, common practice)
+
+    Returns
+    -------
+    np.ndarray float64; NaN for NaN input or where 1 + α (T − 25) ≤ 0.
+
+    Examples
+    --------
+    >>> float(iso7888_f25_extended(35.0))
+    0.822
+    >>> round(float(iso7888_f25_extended(36.0)), 4)
+    0.8085
+    """
+    t = _arr(temp_c, "temp_c")
+    a = _arr(alpha_per_c, "alpha_per_c")
+    lo, hi = ISO7888_RANGE_C
+    inside = iso7888_f25(t)
+    end = np.where(t < lo, lo, hi)
+    f_end = np.where(t < lo, ISO7888_F25[0], ISO7888_F25[-1])
+    denom = 1.0 + a * (t - 25.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        beyond = np.where(denom > 0, f_end * (1.0 + a * (end - 25.0))
+                          / np.where(denom > 0, denom, 1.0), np.nan)
+    return np.where(np.isnan(inside), beyond, inside)
+
+
 def iso7888_to_25(ec, temp_c) -> np.ndarray:
     """EC25 = f25(T) × EC_T with the ISO 7888 natural-water factor.
 
@@ -210,8 +259,9 @@ def to_25(ec, temp_c, compensated, method="iso7888",
     * temperature unknown (NaN) and not compensated: unchanged, i.e. the
       sample is assumed to be at 25 °C; the caller flags it.
     * ``method="iso7888"``: EC25 = f25(T) × EC_T (ISO 7888:1985) within
-      0-35 °C; outside that range the linear model with ``alpha_per_c`` is
-      used (see :func:`applied_method`; the caller flags it).
+      the stored table (0-35 °C); beyond it the linear model with
+      ``alpha_per_c`` continued from the table's end value
+      (:func:`iso7888_f25_extended`; :func:`applied_method` names it).
     * ``method="linear"``: EC25 = EC_T / (1 + α (T − 25)) (ISO 7888;
       APHA Standard Methods 2510).
 
@@ -229,12 +279,10 @@ def to_25(ec, temp_c, compensated, method="iso7888",
     """
     a = _check_method(method, alpha_per_c)
     ec, t, comp = _broadcast_inputs(ec, temp_c, compensated)
-    lin = linear_to_25(ec, t, a)
     if method == "iso7888":
-        iso = iso7888_to_25(ec, t)
-        out = np.where(np.isnan(iso), lin, iso)
+        out = ec * iso7888_f25_extended(t, a)
     else:
-        out = lin
+        out = linear_to_25(ec, t, a)
     passthrough = comp | np.isnan(t)
     return np.where(passthrough, ec, out).astype(np.float64)
 
@@ -244,17 +292,19 @@ def applied_method(temp_c, compensated, method="iso7888") -> np.ndarray:
 
     Returns an array of strings: "meter" (compensated by the meter),
     "assumed_25" (temperature unknown, value passed through), "iso7888",
-    "linear", or "linear_outside_iso7888" (ISO method asked for a
-    temperature outside 0-35 °C).
+    "linear", or "iso7888_linear_beyond_table" (ISO method asked for a
+    temperature beyond the stored table, 0-35 °C: the linear model
+    continued from the table's end value, :func:`iso7888_f25_extended`).
+    Labels and sources: ``fieldapp/data/method_labels.csv``.
     """
     _check_method(method, DEFAULT_ALPHA_PER_C)
     _, t, comp = _broadcast_inputs(0.0, temp_c, compensated)
     lo, hi = ISO7888_RANGE_C
     if method == "iso7888":
         inside = (t >= lo) & (t <= hi)
-        base = np.where(inside, "iso7888", "linear_outside_iso7888")
+        base = np.where(inside, "iso7888", "iso7888_linear_beyond_table")
     else:
-        base = np.full(t.shape, "linear", dtype="<U22")
+        base = np.full(t.shape, "linear", dtype="<U27")
     out = np.where(np.isnan(t), "assumed_25", base)
     return np.where(comp, "meter", out)
 

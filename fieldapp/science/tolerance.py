@@ -49,6 +49,11 @@ class Crop:
     tolerance_class: str
     aliases: tuple[str, ...]
     source: str
+    #: True where the row was checked against a published table that was
+    #: read (``verified`` column "yes"); the screen shows "unverified" otherwise.
+    verified: bool = False
+    #: Where published values disagree, the other value and why this one.
+    note: str = ""
 
     @property
     def tolerance_label(self) -> str:
@@ -69,7 +74,8 @@ def _load_crops() -> dict[str, Crop]:
             slope_pct_per_dS_m=float(r["slope_pct_per_dS_m"]),
             tolerance_class=r["tolerance_class"],
             aliases=tuple(a.strip() for a in r["aliases"].split(";") if a.strip()),
-            source=r["source"])
+            source=r["source"], verified=r.get("verified", "").lower() == "yes",
+            note=r.get("note", ""))
         if c.group not in CROP_GROUPS or c.tolerance_class not in TOLERANCE_CLASSES:
             raise RuntimeError(f"crops.csv: bad group or class in row {c.name!r}")
         if not (c.threshold_dS_m > 0 and c.slope_pct_per_dS_m > 0):
