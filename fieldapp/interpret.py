@@ -397,10 +397,13 @@ def _heading(prev_rs, last_rs, prev_day, last_day) -> dict:
     methods0 = {(r.get("result") or {}).get("ece_method") or r.get("ece_method") for r in prev_rs}
     methods1 = {(r.get("result") or {}).get("ece_method") or r.get("ece_method") for r in last_rs}
     note = None
+    methods0.discard(None)
+    methods1.discard(None)
     if methods0 != methods1:
+        from .labels import method_label   # plain words, never the method keys
         note = ("The ECe method changed between the two visits ("
-                + ", ".join(sorted(str(m) for m in methods0)) + " → "
-                + ", ".join(sorted(str(m) for m in methods1))
+                + "; ".join(sorted(method_label(m) for m in methods0)) + " → "
+                + "; ".join(sorted(method_label(m) for m in methods1))
                 + "); part of the change may come from the method.")
     return {
         "from_date": prev_day, "to_date": last_day, "days": days,

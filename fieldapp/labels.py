@@ -90,6 +90,11 @@ def method_label(key: str | None) -> str:
     table = _method_table()
     if key in table:
         return table[key]
+    for pattern, label in table.items():   # e.g. "sp_dilution:texture:<texture>"
+        if "<" in pattern:
+            prefix = pattern[:pattern.index("<")]
+            if key.startswith(prefix) and len(key) > len(prefix):
+                return f"{label} ({key[len(prefix):]})"
     if key == "paste":
         return "measured on a saturated paste"
     head, _, rest = key.partition(":")
@@ -140,6 +145,8 @@ def label_result(result: dict) -> dict:
                     for f in result.get("flags") or []]
     out["ece_method_label"] = method_label(result.get("ece_method"))
     out["psi_s_method_label"] = route_label(result.get("psi_s_method"))
+    if result.get("temp_method"):
+        out["temp_method_label"] = method_label(result["temp_method"])
     if isinstance(result.get("psi_s_by_method"), dict):
         out["psi_s_route_labels"] = {k: route_label(k) for k in result["psi_s_by_method"]}
     return out

@@ -22,10 +22,11 @@
   var box = window.fieldappOutbox;
   var FIELDS = ["site", "sample", "value", "unit", "tds_factor", "ratio", "sp", "texture",
                 "depth_cm", "temp_c", "meter", "replicate_group", "crop", "theta_g_pct",
-                "matric_MPa", "note", "visited_by"];
+                "matric_MPa", "note", "visited_by", "salt_type"];
   var KEEP = ["site", "sample", "unit", "meter", "tds_factor", "ratio", "texture", "sp",
               "temp_c", "compensated", "crop", "visited_by"];
   var TDS_UNITS = ["ppm", "mg/L", "ppt", "g/L"];
+  var WATER_KINDS = ["water", "drain"];
   var LAST = "fieldapp.form.v2";
   var TEMP_CARRY_MS = 30 * 60 * 1000;   // a sample's temperature is stale after 30 min
   var ANSWER_MS = 4000;                 // no answer by then: the reading waits on the device
@@ -54,6 +55,7 @@
     if (!k.takes_ratio) delete d.ratio;
     if (!k.is_soil) { delete d.sp; delete d.texture; delete d.depth_cm; delete d.theta_g_pct; delete d.matric_MPa; }
     if (TDS_UNITS.indexOf(d.unit) < 0) delete d.tds_factor;
+    if (WATER_KINDS.indexOf(d.sample) < 0) delete d.salt_type;
     var t = takenAt();
     if (t) d.taken_at = t;
     return d;
@@ -83,6 +85,7 @@
     document.querySelectorAll("[data-show]").forEach(function (el) {
       var what = el.getAttribute("data-show");
       el.hidden = !(what === "ratio" ? k.takes_ratio : what === "soil" ? k.is_soil :
+                    what === "water" ? WATER_KINDS.indexOf(k.key) >= 0 :
                     what === "tds" ? TDS_UNITS.indexOf($("unit").value) >= 0 : true);
     });
     if (k.takes_ratio && !$("ratio").value && k.default_ratio) $("ratio").value = "1:" + k.default_ratio;
@@ -167,14 +170,24 @@
     line(dl, "EC at 25 °C", withUnit(r.ec25_dS_m, 3, "dS/m"),
          "(" + withUnit(r.ec25_uS_cm, 4, "µS/cm") +
          (r.compensation_factor && Math.abs(r.compensation_factor - 1) > 0.005 ?
-           ", ×" + fmt(r.compensation_factor, 3) + " for temperature" : "") + ")");
+           ", ×" + fmt(r.compensation_factor, 3) + " for temperature" : "") + ")" +
+         (r.temp_method_label ? " " + r.temp_method_label : ""));
     if (r.ece_dS_m !== null) {
       line(dl, "ECe", withUnit(r.ece_dS_m, 3, "dS/m"),
            (r.ece_method_label || "") + (r.ece_uncertainty_pct ? " · about ±" + fmt(r.ece_uncertainty_pct, 2) + " %" : ""));
+      if (r.ece_note) dl.lastChild.appendChild(el("span", "muted small-print", r.ece_note));
+    }
+    if (r.tds) {
+      if (r.tds.meter) line(dl, "TDS, meter", fmt(r.tds.meter.value, 4) + " " + r.tds.meter.unit, r.tds.meter.label);
+      if (r.tds.estimate_mg_L !== null && r.tds.estimate_mg_L !== undefined)
+        line(dl, "TDS, estimate", withUnit(r.tds.estimate_mg_L, 3, "mg/L"), r.tds.estimate_label);
     }
     if (r.soil_class) line(dl, "Soil", words(r.soil_class));
     if (r.water_hazard) line(dl, "Water hazard", words(r.water_hazard), "(FAO 29)");
     if (r.psi_s_MPa !== null) line(dl, "Solute potential", withUnit(r.psi_s_MPa, 3, "MPa"), r.psi_s_method_label);
+    if (r.psi_s_by_method && r.psi_s_by_method.seawater_pss78 !== null && r.psi_s_by_method.seawater_pss78 !== undefined &&
+        r.psi_s_method !== "nacl_pitzer" && r.psi_s_by_method.nacl_pitzer !== null)
+      line(dl, "… as sodium chloride", withUnit(r.psi_s_by_method.nacl_pitzer, 3, "MPa"), "for comparison");
     if (r.soil_solution) {
       line(dl, "At field capacity",
            withUnit(r.soil_solution.psi_s_fc_MPa, 3, "MPa", "needs the soil's saturation % or texture"),
@@ -188,7 +201,8 @@
     if (r.crop) {
       if (r.relative_yield_pct !== undefined)
         line(dl, "Expected yield", withUnit(r.relative_yield_pct, 3, "%", "no ECe for this reading"),
-             r.crop.name + ", Maas-Hoffman");
+             r.crop.name + ", Maas-Hoffman" + (r.crop.source_status === "unverified" ?
+               " (crop values unverified against their published table)" : ""));
       if (r.leaching_requirement !== undefined)
         line(dl, "Leaching requirement", r.leaching_requirement === null ? "not reachable with this water" :
              Math.round(r.leaching_requirement * 100) + " % of water applied", r.crop.name);
@@ -245,7 +259,7 @@
   function update() {
     var d = payload();
     dropPreviewErrors(); paintErrors();
-    hideConfirm();
+    if (confirmKey !== keyOf(d)) hideConfirm();   // the reading changed: ask again on Save
     if (!d.value) {
       lastPreview = null;
       preview.innerHTML = '<p class="muted">Type a reading to see EC at 25 °C, ECe and solute potential.</p>';
@@ -389,7 +403,8 @@
     hideConfirm(); status("", "ok"); goTo("value");
   });
 
-  function hideConfirm() { $("confirm").hidden = true; }
+  var confirmKey = null;     // the reading the "Save anyway" question is about
+  function hideConfirm() { $("confirm").hidden = true; confirmKey = null; }
 
   function trySave(anyway) {
     if (awaiting) { status("Already saving this reading; it is stored once.", "wait"); return; }
@@ -410,7 +425,7 @@
       if (p && p.refused) return refuse(p.refused.field || "form", p.refused.error || "Not accepted.");
       if (p && p.result.refused) return refuse(p.result.refused.field, p.result.refused.error);
       var errs = p ? p.result.flags.filter(function (f) { return f.severity === "error"; }) : [];
-      if (errs.length && !anyway) return askConfirm(errs);
+      if (errs.length && !anyway) { confirmKey = key; return askConfirm(errs); }
       hideConfirm();
       if (p) d._seen_flags = p.result.flags.map(function (f) { return f.code; });
       if (errs.length) d.confirmed_flags = errs.map(function (f) { return f.code; });
