@@ -442,3 +442,17 @@ def test_substrate_ranges_by_sample_kind_and_unknown():
     with pytest.raises(InputError) as e:
         ex.substrate_ranges("feed")  # no sourced feed table is shipped
     assert e.value.field == "method" and "sme" in e.value.message
+
+
+def test_substrate_ranges_name_publication_and_method():
+    # NC State Horticulture Information Leaflet 590 (Cavins, Whipker, Fonteno,
+    # Harden, McCall and Gibson, New 7/2000; its opening read in the studylib
+    # copy): each row names the leaflet and its own test method (1:2, SME,
+    # pour-through). The leaflet's table itself was not shown, so every row
+    # stays unverified until someone reads it.
+    method_words = {"media_1to2": "1:2", "sme": "SME", "pour_through": "pour-through"}
+    for method, word in method_words.items():
+        for r in ex.substrate_ranges(method):
+            assert "Leaflet 590" in r.source and "Cavins" in r.source and "2000" in r.source
+            assert word in r.source, (method, r.level)
+            assert r.verified == "unverified" and "unverified" in r.source
