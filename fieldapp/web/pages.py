@@ -6,6 +6,7 @@ import datetime as dt
 from flask import Blueprint, Response, abort, render_template, request, stream_with_context
 
 from .. import csvio, store
+from .. import sites as sitecfg
 from ..science import extracts, tolerance, units
 from ..science.convert import CAUTIONS
 from . import get_db
@@ -53,7 +54,33 @@ def service_worker():
 
 @bp.get("/sites")
 def sites():
-    return render_template("sites.html", sites=store.list_sites(get_db()))
+    return render_template("sites.html", sites=store.list_sites(get_db()),
+                           kind_label=sitecfg.kind_label)
+
+
+def _settings_meta() -> dict:
+    return {"kinds": sitecfg.SITE_KINDS,
+            "crops": sorted(c.name for c in tolerance.CROPS.values()),
+            "textures": list(extracts.TEXTURES)}
+
+
+@bp.get("/sites/new")
+def site_new():
+    """Set up a new site with its settings (POST /api/sites from static/site_settings.js)."""
+    return render_template("site_settings.html", site=None, history=[], meta=_settings_meta())
+
+
+@bp.get("/sites/<int:site_id>/settings")
+def site_settings(site_id):
+    """The settings form of a site (PATCH /api/sites/<id>) and the kept history
+    of its settings, newest first."""
+    db = get_db()
+    site = store.get_site(db, site_id)
+    if site is None:
+        abort(404)
+    history = sitecfg.history_changes(store.site_history(db, site_id))[::-1]
+    return render_template("site_settings.html", site=site, history=history,
+                           meta=_settings_meta(), kind_label=sitecfg.kind_label)
 
 
 @bp.get("/sites/<int:site_id>")
@@ -73,6 +100,8 @@ def site_log(site_id):
         r["acks"] = {a["code"]: a for a in acks[r["id"]]}
     from .views import site_view  # the summary and charts at the top of the log
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
+                           kind_label=sitecfg.kind_label,
+                           saved=request.args.get("saved") == "1",
                            summary=site_view(db, site),
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
                            date_from=date_from or "", date_to=date_to or "")

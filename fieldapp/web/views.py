@@ -56,6 +56,7 @@ def site_view(db, site) -> dict:
         "measures": interpret.TARGET_MEASURES,
         "crop": crop.name if crop else None,
         "report_url": url_for("views.report", site_id=site["id"]),
+        "settings_url": url_for("pages.site_settings", site_id=site["id"]),
         "map_url": url_for("views.map_page"),
         "has_visits": bool(visits),
         "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
