@@ -171,6 +171,38 @@ def calibration_check(body: dict, meter: dict) -> dict:
             "passed": abs(deviation) <= tol, "note": str(body.get("note") or "")[:2000]}
 
 
+def check_status(check: dict | None, max_age_days: float = DEFAULT_MAX_AGE_DAYS,
+                 at: dt.datetime | str | None = None) -> dict:
+    """How a meter's last calibration check stands at a moment (now by
+    default): 'passed', 'failed', 'due' (it passed, but longer ago than
+    ``max_age_days``) or 'none' (no check on record). A failed check stays
+    'failed' however old. Returns {state, label, age_days, max_age_days}."""
+    if isinstance(at, str):
+        at = _taken_utc(at)
+    at = at or dt.datetime.now(dt.timezone.utc)
+    limit = f"{max_age_days:g} day{'' if max_age_days == 1 else 's'}"
+    if check is None:
+        return {"state": "none", "label": "No calibration check on record: check it before use.",
+                "age_days": None, "max_age_days": max_age_days}
+    checked = dt.datetime.fromisoformat(str(check["checked_at"]).replace("Z", "+00:00"))
+    if checked.tzinfo is None:
+        checked = checked.replace(tzinfo=dt.timezone.utc)
+    age = max(0.0, (at - checked).total_seconds() / 86400.0)
+    dev = f"{check['deviation_pct']:+.1f} %".replace("-", "−")
+    when = f"{checked.astimezone():%Y-%m-%d}"
+    if not check["passed"]:
+        state, label = "failed", (f"FAILED on {when} ({dev}): clean the probe, recalibrate "
+                                  "and check again.")
+    elif age > max_age_days:
+        days = f"{age:.0f} day{'' if round(age) == 1 else 's'}"
+        state, label = "due", (f"Check due: the last check ({when}, passed {dev}) was {days} "
+                               f"ago; a check is good for {limit}.")
+    else:
+        state, label = "passed", f"Passed on {when} ({dev}), within the {limit} allowed."
+    return {"state": state, "label": label, "age_days": round(age, 2),
+            "max_age_days": max_age_days}
+
+
 def _range_for(meter: dict, ec_dS_m: float, tds_factor):
     """(min, max, resolution) in dS/m of the range a reading falls in: the
     most sensitive range that holds it, else the top range (pegged)."""

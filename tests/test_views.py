@@ -3,6 +3,7 @@ the visit report (every reading of the visit, with status, flags and
 acknowledgements), the JSON summary, the map and the target ranges."""
 from __future__ import annotations
 
+import datetime as dt
 import re
 import xml.etree.ElementTree as ET
 
@@ -176,3 +177,16 @@ def test_map_with_two_sites_on_the_same_spot(client):
     html = client.get("/map").get_data(as_text=True)
     assert html.count('class="site-point"') == 3
     assert "nearest: 2 Bench 5, 0 m" in html
+
+
+def test_a_recent_check_passes_and_a_failed_one_stays_failed():
+    from fieldapp import meters
+    # the limit is a setting (common practice: check every field day); a failed check
+    # never turns into 'due' or 'passed' with age
+    now = dt.datetime(2026, 11, 30, 12, 0, tzinfo=dt.timezone.utc)
+    ok = {"checked_at": "2026-11-29T08:00:00+00:00", "passed": True, "deviation_pct": 0.5}
+    assert meters.check_status(ok, 7, now)["state"] == "passed"
+    assert meters.check_status(ok, 1, now)["state"] == "due"
+    old_fail = {**ok, "checked_at": "2026-08-01T08:00:00+00:00", "passed": False}
+    assert meters.check_status(old_fail, 7, now)["state"] == "failed"
+    assert meters.check_status(None, 7, now)["state"] == "none"

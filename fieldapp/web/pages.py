@@ -3,7 +3,8 @@ from __future__ import annotations
 
 import datetime as dt
 
-from flask import Blueprint, Response, abort, render_template, request, stream_with_context
+from flask import (Blueprint, Response, abort, current_app, render_template, request,
+                   stream_with_context)
 
 from .. import csvio, store
 from .. import sites as sitecfg
@@ -38,7 +39,12 @@ def entry():
 def meters_page():
     from .. import meters
     db = get_db()
-    return render_template("meters.html", meters=store.list_meters(db), presets=meters.presets(),
+    max_age = float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS",
+                                           meters.DEFAULT_MAX_AGE_DAYS))
+    ms = store.list_meters(db)
+    for m in ms:
+        m["check"] = meters.check_status(m["last_check"], max_age)
+    return render_template("meters.html", meters=ms, presets=meters.presets(), max_age_days=max_age,
                            units=units.DISPLAY_UNITS, cautions=CAUTIONS,
                            default_tolerance=meters.DEFAULT_TOLERANCE_PCT)
 
