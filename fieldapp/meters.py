@@ -52,7 +52,63 @@ def presets() -> list[dict]:
             "tds_factor": float(r["tds_factor"]) if r["tds_factor"] else None,
             "source": r["source"],
         })
+        out[-1]["class"] = meter_class(out[-1])
+        out[-1]["label"] = out[-1]["class"]["label"]
     return out
+
+
+def display_digits(max_value: float, resolution: float | None) -> str | None:
+    """The display a range needs, from its top and its step: 1999 counts is a
+    3½-digit display, 2000 to 9999 counts 4 digits, 999 counts 3 digits
+    (the usual naming of digital displays: a leading "½" digit shows 0 or 1)."""
+    if not resolution or resolution <= 0 or not max_value or max_value <= 0:
+        return None
+    counts = round(max_value / resolution)
+    digits = len(str(counts))
+    if str(counts).startswith("1") and counts >= 10:
+        return f"{digits - 1}½"
+    return str(digits)
+
+
+def meter_class(p: dict) -> dict:
+    """A preset described as a class of meter rather than one product: what
+    it displays (EC or TDS), its display digits, how many decades its ranges
+    cover, its stated accuracy and its temperature compensation."""
+    ranges = sorted(p.get("ranges") or [], key=lambda r: float(
+        units.to_ec_dS_m(r["max"], r["unit"], tds_factor=p.get("tds_factor") or 0.5)))
+    if not ranges:
+        return {"label": p.get("name") or "meter", "parts": []}
+    tds = all(units.parse_unit(r["unit"]).kind != "ec" for r in ranges)
+    digits = display_digits(ranges[-1]["max"], ranges[-1]["resolution"])
+    lo_top = float(units.to_ec_dS_m(ranges[0]["max"], ranges[0]["unit"],
+                                    tds_factor=p.get("tds_factor") or 0.5))
+    hi_top = float(units.to_ec_dS_m(ranges[-1]["max"], ranges[-1]["unit"],
+                                    tds_factor=p.get("tds_factor") or 0.5))
+    decades = int(round(math.log10(hi_top / lo_top))) + 1 if lo_top > 0 else 1
+    kind = ("autoranging " if len(ranges) > 1 else "") + ("TDS" if tds else "EC")
+    parts = [f"{digits}-digit display" if digits else None,
+             f"{decades} decade{'s' if decades > 1 else ''}"
+             + (f" in {len(ranges)} ranges" if len(ranges) > 1 else ""),
+             f"±{p['accuracy_pct']:g} % of reading" if p.get("accuracy_pct") else None,
+             (f"ATC {p['atc_min_c']:g}–{p['atc_max_c']:g} °C"
+              if p.get("atc") and p.get("atc_min_c") is not None and p.get("atc_max_c") is not None
+              else "ATC" if p.get("atc") else "no ATC (note the sample's temperature)"),
+             f"TDS factor {p['tds_factor']:g}" if p.get("tds_factor") else None]
+    parts = [x for x in parts if x]
+    span = "; ".join(f"{_num_text(r['min'])}–{_num_text(r['max'])} {r['unit']}"
+                     f"{' in steps of ' + _num_text(r['resolution']) if r['resolution'] else ''}"
+                     for r in ranges)
+    label = (f"{kind} meter, {digits or '?'} digits, {decades} decade{'s' if decades > 1 else ''},"
+             f" {'±' + format(p['accuracy_pct'], 'g') + ' %' if p.get('accuracy_pct') else 'accuracy not stated'},"
+             f" {'ATC' if p.get('atc') else 'no ATC'}")
+    return {"label": label, "kind": kind, "digits": digits, "decades": decades,
+            "n_ranges": len(ranges), "parts": parts, "ranges_text": span,
+            "note": "Typical figures of this class of meter (common practice), not any one "
+                    "product's: check your meter's manual and change what differs."}
+
+
+def _num_text(x) -> str:
+    return f"{float(x):.10g}"
 
 
 def _num(body, key, what, required=False):

@@ -123,7 +123,8 @@ def list_meters():
 def create_meter():
     body = _body()
     if body.get("preset") and not body.get("ranges"):
-        preset = next((p for p in meters.presets() if p["name"] == body["preset"]), None)
+        preset = next((p for p in meters.presets() if body["preset"] in (p["name"], p["label"])),
+                      None)
         if preset is None:
             raise InputError("Unknown preset; see GET /api/meters.", "preset")
         body = {**preset, **{k: v for k, v in body.items() if k != "preset"}}
