@@ -15,7 +15,7 @@ SITES = [
      "latitude": 10.0012, "longitude": 20.0031, "notes": "Drip line, south end wetter."},
     {"name": "Farm A Block 7", "crop": "Barley", "sp_pct": 48, "kind": "field",
      "latitude": 10.0040, "longitude": 20.0075, "notes": ""},
-    {"name": "Farm A well 2", "crop": "Tomato", "kind": "field",
+    {"name": "Farm A well 2", "crop": "Tomato", "kind": "water_source",
      "latitude": 10.0021, "longitude": 20.0010, "notes": "Irrigation source for Block 3."},
     {"name": "Greenhouse B bench 4", "crop": "Cucumber", "kind": "greenhouse", "notes": ""},
 ]

@@ -610,11 +610,37 @@ def site_summary(site: Mapping, readings: Iterable[Mapping], targets: Iterable[M
         "headline": [],
         "cautions": list(CAUTIONS),
     }
-    if site.get("kind") == "greenhouse" and gh is None:
+    kind = site.get("kind") or "field"
+    if kind == "greenhouse" and gh is None:
         out["greenhouse_missing"] = ("Record the feed and the leachate on the same visit to see "
                                      "whether salts build up in the substrate.")
+    if kind == "water_source" and water is None:
+        out["water_missing"] = ("Record this source's EC as an irrigation water sample to see "
+                                "its FAO 29 salinity class and, with a crop set, the leaching "
+                                "requirement.")
+    out["needs_crop"] = needs_crop(out)
     out["headline"] = headline(out)
     return out
+
+
+def needs_crop(s: Mapping) -> str | None:
+    """What setting the site's crop would add, or None (a crop is set, or no
+    reading needs one). The page shows it as a link to the site's settings."""
+    if s.get("crop") is not None:
+        return None
+    if s.get("crop_unknown"):
+        return ("The site's crop is not in the crop table: choose one from the list for the "
+                "expected yield and the leaching requirement.")
+    soil, water = s.get("soil"), s.get("water")
+    kind = (s.get("site") or {}).get("kind")
+    if soil and water:
+        return "Set the site's crop to see the expected yield and the leaching requirement."
+    if soil:
+        return "Set the site's crop to see the expected yield (Maas-Hoffman)."
+    if water or kind == "water_source":
+        return ("Set the crop this water irrigates to see the leaching requirement "
+                "(FAO 29).")
+    return None
 
 
 def headline(s: Mapping) -> list[str]:

@@ -52,7 +52,63 @@ def presets() -> list[dict]:
             "tds_factor": float(r["tds_factor"]) if r["tds_factor"] else None,
             "source": r["source"],
         })
+        out[-1]["class"] = meter_class(out[-1])
+        out[-1]["label"] = out[-1]["class"]["label"]
     return out
+
+
+def display_digits(max_value: float, resolution: float | None) -> str | None:
+    """The display a range needs, from its top and its step: 1999 counts is a
+    3½-digit display, 2000 to 9999 counts 4 digits, 999 counts 3 digits
+    (the usual naming of digital displays: a leading "½" digit shows 0 or 1)."""
+    if not resolution or resolution <= 0 or not max_value or max_value <= 0:
+        return None
+    counts = round(max_value / resolution)
+    digits = len(str(counts))
+    if str(counts).startswith("1") and counts >= 10:
+        return f"{digits - 1}½"
+    return str(digits)
+
+
+def meter_class(p: dict) -> dict:
+    """A preset described as a class of meter rather than one product: what
+    it displays (EC or TDS), its display digits, how many decades its ranges
+    cover, its stated accuracy and its temperature compensation."""
+    ranges = sorted(p.get("ranges") or [], key=lambda r: float(
+        units.to_ec_dS_m(r["max"], r["unit"], tds_factor=p.get("tds_factor") or 0.5)))
+    if not ranges:
+        return {"label": p.get("name") or "meter", "parts": []}
+    tds = all(units.parse_unit(r["unit"]).kind != "ec" for r in ranges)
+    digits = display_digits(ranges[-1]["max"], ranges[-1]["resolution"])
+    lo_top = float(units.to_ec_dS_m(ranges[0]["max"], ranges[0]["unit"],
+                                    tds_factor=p.get("tds_factor") or 0.5))
+    hi_top = float(units.to_ec_dS_m(ranges[-1]["max"], ranges[-1]["unit"],
+                                    tds_factor=p.get("tds_factor") or 0.5))
+    decades = int(round(math.log10(hi_top / lo_top))) + 1 if lo_top > 0 else 1
+    kind = ("autoranging " if len(ranges) > 1 else "") + ("TDS" if tds else "EC")
+    parts = [f"{digits}-digit display" if digits else None,
+             f"{decades} decade{'s' if decades > 1 else ''}"
+             + (f" in {len(ranges)} ranges" if len(ranges) > 1 else ""),
+             f"±{p['accuracy_pct']:g} % of reading" if p.get("accuracy_pct") else None,
+             (f"ATC {p['atc_min_c']:g}–{p['atc_max_c']:g} °C"
+              if p.get("atc") and p.get("atc_min_c") is not None and p.get("atc_max_c") is not None
+              else "ATC" if p.get("atc") else "no ATC (note the sample's temperature)"),
+             f"TDS factor {p['tds_factor']:g}" if p.get("tds_factor") else None]
+    parts = [x for x in parts if x]
+    span = "; ".join(f"{_num_text(r['min'])}–{_num_text(r['max'])} {r['unit']}"
+                     f"{' in steps of ' + _num_text(r['resolution']) if r['resolution'] else ''}"
+                     for r in ranges)
+    label = (f"{kind} meter, {digits or '?'} digits, {decades} decade{'s' if decades > 1 else ''},"
+             f" {'±' + format(p['accuracy_pct'], 'g') + ' %' if p.get('accuracy_pct') else 'accuracy not stated'},"
+             f" {'ATC' if p.get('atc') else 'no ATC'}")
+    return {"label": label, "kind": kind, "digits": digits, "decades": decades,
+            "n_ranges": len(ranges), "parts": parts, "ranges_text": span,
+            "note": "Typical figures of this class of meter (common practice), not any one "
+                    "product's: check your meter's manual and change what differs."}
+
+
+def _num_text(x) -> str:
+    return f"{float(x):.10g}"
 
 
 def _num(body, key, what, required=False):
@@ -169,6 +225,38 @@ def calibration_check(body: dict, meter: dict) -> dict:
             "expected_uS_cm": round(expected, 3), "measured_uS_cm": round(measured, 3),
             "deviation_pct": round(deviation, 2), "tolerance_pct": tol,
             "passed": abs(deviation) <= tol, "note": str(body.get("note") or "")[:2000]}
+
+
+def check_status(check: dict | None, max_age_days: float = DEFAULT_MAX_AGE_DAYS,
+                 at: dt.datetime | str | None = None) -> dict:
+    """How a meter's last calibration check stands at a moment (now by
+    default): 'passed', 'failed', 'due' (it passed, but longer ago than
+    ``max_age_days``) or 'none' (no check on record). A failed check stays
+    'failed' however old. Returns {state, label, age_days, max_age_days}."""
+    if isinstance(at, str):
+        at = _taken_utc(at)
+    at = at or dt.datetime.now(dt.timezone.utc)
+    limit = f"{max_age_days:g} day{'' if max_age_days == 1 else 's'}"
+    if check is None:
+        return {"state": "none", "label": "No calibration check on record: check it before use.",
+                "age_days": None, "max_age_days": max_age_days}
+    checked = dt.datetime.fromisoformat(str(check["checked_at"]).replace("Z", "+00:00"))
+    if checked.tzinfo is None:
+        checked = checked.replace(tzinfo=dt.timezone.utc)
+    age = max(0.0, (at - checked).total_seconds() / 86400.0)
+    dev = f"{check['deviation_pct']:+.1f} %".replace("-", "−")
+    when = f"{checked.astimezone():%Y-%m-%d}"
+    if not check["passed"]:
+        state, label = "failed", (f"FAILED on {when} ({dev}): clean the probe, recalibrate "
+                                  "and check again.")
+    elif age > max_age_days:
+        days = f"{age:.0f} day{'' if round(age) == 1 else 's'}"
+        state, label = "due", (f"Check due: the last check ({when}, passed {dev}) was {days} "
+                               f"ago; a check is good for {limit}.")
+    else:
+        state, label = "passed", f"Passed on {when} ({dev}), within the {limit} allowed."
+    return {"state": state, "label": label, "age_days": round(age, 2),
+            "max_age_days": max_age_days}
 
 
 def _range_for(meter: dict, ec_dS_m: float, tds_factor):

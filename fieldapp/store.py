@@ -185,18 +185,25 @@ def clean_site_name(name) -> str:
     return name
 
 
-def get_site(conn, name_or_id) -> sqlite3.Row | None:
+def get_site(conn, name_or_id, former_names: bool = True) -> sqlite3.Row | None:
+    """A site by id or by name. A name no site holds now finds the site that
+    held it last (a reading queued on a tablet before the site was renamed);
+    ``former_names=False`` looks at current names only."""
     if isinstance(name_or_id, int):
         return conn.execute("SELECT * FROM sites WHERE id = ?", (name_or_id,)).fetchone()
-    return conn.execute("SELECT * FROM sites WHERE name = ?",
-                        (" ".join(str(name_or_id).split()),)).fetchone()
+    name = " ".join(str(name_or_id).split())
+    row = conn.execute("SELECT * FROM sites WHERE name = ?", (name,)).fetchone()
+    if row is None and former_names:
+        row = site_by_former_name(conn, name)
+    return row
 
 
-def ensure_site(conn, name: str, **attrs) -> sqlite3.Row:
-    """Return the site called ``name``, creating it (inside the caller's
-    transaction) if it does not exist."""
+def ensure_site(conn, name: str, former_names: bool = True, **attrs) -> sqlite3.Row:
+    """Return the site called ``name`` (or, with ``former_names``, the site
+    renamed away from it), creating it (inside the caller's transaction) if it
+    does not exist. The creation is the first entry of the site's history."""
     name = clean_site_name(name)
-    row = get_site(conn, name)
+    row = get_site(conn, name, former_names=former_names)
     if row is None:
         conn.execute(
             "INSERT INTO sites (name, crop, latitude, longitude, sp_pct, texture, kind, notes,"
@@ -204,7 +211,9 @@ def ensure_site(conn, name: str, **attrs) -> sqlite3.Row:
             (name, attrs.get("crop"), attrs.get("latitude"), attrs.get("longitude"),
              attrs.get("sp_pct"), attrs.get("texture"), attrs.get("kind") or "field",
              attrs.get("notes") or "", utc_now()))
-        row = get_site(conn, name)
+        row = get_site(conn, name, former_names=False)
+        _record_site_history(conn, row["id"], "created",
+                             {k: (None, row[k]) for k in SITE_SETTINGS})
     return row
 
 
@@ -212,12 +221,93 @@ SITE_EDITABLE = ("crop", "latitude", "longitude", "sp_pct", "texture", "kind", "
 
 
 def update_site(conn, site_id: int, **attrs) -> sqlite3.Row:
-    cols = [k for k in SITE_EDITABLE if k in attrs]
-    if cols:
-        with transaction(conn):
-            conn.execute(f"UPDATE sites SET {', '.join(c + ' = ?' for c in cols)} WHERE id = ?",
-                         [attrs[c] for c in cols] + [site_id])
-    return get_site(conn, site_id)
+    """Change some settings of a site; the change is kept in its history."""
+    return change_site_settings(conn, site_id, attrs)[0]
+
+
+# ---- site settings and their history (schema/006_site_settings.sql)
+
+#: The settings kept in site_history, in the order they are shown.
+SITE_SETTINGS = ("name", "kind", "crop", "texture", "sp_pct", "latitude", "longitude", "notes")
+
+
+def _history_text(value) -> str | None:
+    if value is None or value == "":
+        return None
+    if isinstance(value, float):
+        return repr(value)
+    return str(value)
+
+
+def _record_site_history(conn, site_id: int, action: str, changes: dict,
+                         when: str | None = None) -> int | None:
+    """Append one change (``{field: (old, new)}``) to the site's history,
+    inside the caller's transaction; fields whose value did not change are
+    left out. Returns the change number, or None when nothing changed."""
+    rows = [(f, _history_text(o), _history_text(n)) for f, (o, n) in changes.items()]
+    rows = [r for r in rows if r[1] != r[2]]
+    if not rows:
+        return None
+    no = conn.execute("SELECT COALESCE(MAX(change_no), 0) + 1 FROM site_history "
+                      "WHERE site_id = ?", (site_id,)).fetchone()[0]
+    when = when or utc_now()
+    conn.executemany(
+        "INSERT INTO site_history (site_id, change_no, changed_at, action, field, old_value,"
+        " new_value) VALUES (?,?,?,?,?,?,?)",
+        [(site_id, no, when, action, f, o, n) for f, o, n in rows])
+    return no
+
+
+def change_site_settings(conn, site_id: int, attrs: dict) -> tuple[sqlite3.Row, int | None]:
+    """Change a site's settings (any of SITE_SETTINGS) and keep the change in
+    its history, in one transaction. Returns (the site, change number or None
+    when nothing changed). A name another site holds answers 409."""
+    with transaction(conn):
+        old = get_site(conn, site_id)
+        if old is None:
+            raise StoreError("No such site.", "site", 404)
+        cols = [k for k in SITE_SETTINGS if k in attrs]
+        if "crop" in cols and str(old["crop"] or "").lower() == str(attrs["crop"] or "").lower():
+            cols.remove("crop")      # the same crop spelt in another case is no change
+        if "name" in attrs:
+            attrs = {**attrs, "name": clean_site_name(attrs["name"])}
+            other = get_site(conn, attrs["name"], former_names=False)
+            if other is not None and other["id"] != site_id:
+                raise StoreError(f"Another site is called {other['name']!r} already; choose "
+                                 "another name.", "name", 409)
+        if "kind" in attrs and not attrs["kind"]:
+            attrs = {**attrs, "kind": "field"}
+        if "notes" in attrs and attrs["notes"] is None:
+            attrs = {**attrs, "notes": ""}
+        no = None
+        if cols:
+            try:
+                conn.execute(f"UPDATE sites SET {', '.join(c + ' = ?' for c in cols)} "
+                             "WHERE id = ?", [attrs[c] for c in cols] + [site_id])
+            except sqlite3.IntegrityError as e:
+                raise StoreError(f"These settings could not be kept ({e}).", None, 409) from None
+            no = _record_site_history(conn, site_id, "changed",
+                                      {c: (old[c], attrs[c]) for c in cols})
+        row = get_site(conn, site_id)
+    return row, no
+
+
+def site_history(conn, site_id: int) -> list[dict]:
+    """Every kept change of a site's settings, oldest first: one dict per
+    setting per change (change_no, changed_at, action, field, old_value, new_value)."""
+    return [dict(r) for r in conn.execute(
+        "SELECT change_no, changed_at, action, field, old_value, new_value FROM site_history "
+        "WHERE site_id = ? ORDER BY change_no, id", (site_id,))]
+
+
+def site_by_former_name(conn, name: str) -> sqlite3.Row | None:
+    """The site that was last renamed away from ``name`` (case ignored), if any."""
+    row = conn.execute(
+        "SELECT site_id FROM site_history WHERE field = 'name' AND action = 'changed' "
+        "AND old_value = ? COLLATE NOCASE ORDER BY id DESC LIMIT 1", (name,)).fetchone()
+    if row is None:
+        return None
+    return conn.execute("SELECT * FROM sites WHERE id = ?", (row[0],)).fetchone()
 
 
 def list_sites(conn) -> list[sqlite3.Row]:
@@ -305,7 +395,8 @@ def insert_reading(conn, rec: dict, site_attrs: dict | None = None,
         if conn.execute("SELECT 1 FROM readings WHERE uuid = ?", (rec["uuid"],)).fetchone():
             existing = get_reading(conn, rec["uuid"])
         if existing is not None:
-            if (existing["site"].lower() != " ".join(str(rec["site"]).split()).lower()
+            named = get_site(conn, rec["site"])   # the site may have been renamed since
+            if (named is None or named["id"] != existing["site_id"]
                     or existing["value"] != rec["value"] or existing["unit"] != rec["unit"]):
                 raise StoreError("This reading id was already used for a different reading; "
                                  "the stored one was kept.", "uuid", status=409)

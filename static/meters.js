@@ -17,8 +17,8 @@
 
   $("m-preset").addEventListener("change", function () {
     var p = presets[this.value];
+    $("m-preset-desc").textContent = p ? p["class"].parts.join(", ") + ". " + p["class"].note : "";
     if (!p) return;
-    if (!$("m-name").value) $("m-name").value = p.name;
     var r = p.ranges[p.ranges.length - 1];
     $("m-unit").value = r.unit; $("m-min").value = p.ranges[0].min; $("m-max").value = r.max;
     $("m-res").value = p.ranges[0].resolution || "";

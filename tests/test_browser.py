@@ -139,7 +139,7 @@ def test_unit_slip_flagged_in_preview_and_fixed_with_one_tap(browser, server):
 def test_meter_profile_check_and_remembered_meter(browser, server):
     ctx, page = new_page(browser, TABLET)
     page.goto(server.url + "/meters")
-    page.select_option("#m-preset", label="pocket tester 0-1999 µS/cm")
+    page.select_option("#m-preset", label="EC meter, 3½ digits, 1 decade, ±2 %, ATC")
     page.fill("#m-name", "tester A")
     page.click("#meter-form button[type=submit]")
     page.wait_for_selector("li[data-meter='tester A']")

@@ -3,6 +3,7 @@ the visit report (every reading of the visit, with status, flags and
 acknowledgements), the JSON summary, the map and the target ranges."""
 from __future__ import annotations
 
+import datetime as dt
 import re
 import xml.etree.ElementTree as ET
 
@@ -176,3 +177,44 @@ def test_map_with_two_sites_on_the_same_spot(client):
     html = client.get("/map").get_data(as_text=True)
     assert html.count('class="site-point"') == 3
     assert "nearest: 2 Bench 5, 0 m" in html
+
+
+def test_a_recent_check_passes_and_a_failed_one_stays_failed():
+    from fieldapp import meters
+    # the limit is a setting (common practice: check every field day); a failed check
+    # never turns into 'due' or 'passed' with age
+    now = dt.datetime(2026, 11, 30, 12, 0, tzinfo=dt.timezone.utc)
+    ok = {"checked_at": "2026-11-29T08:00:00+00:00", "passed": True, "deviation_pct": 0.5}
+    assert meters.check_status(ok, 7, now)["state"] == "passed"
+    assert meters.check_status(ok, 1, now)["state"] == "due"
+    old_fail = {**ok, "checked_at": "2026-08-01T08:00:00+00:00", "passed": False}
+    assert meters.check_status(old_fail, 7, now)["state"] == "failed"
+    assert meters.check_status(None, 7, now)["state"] == "none"
+
+
+def test_display_digits_follow_the_usual_naming():
+    from fieldapp import meters
+    # a "3½-digit" display counts to 1999, a 4-digit one to 9999, a 3-digit one to 999
+    assert meters.display_digits(1999, 1) == "3½"
+    assert meters.display_digits(19.99, 0.01) == "3½"
+    assert meters.display_digits(20.0, 0.01) == "4"
+    assert meters.display_digits(9990, 10) == "3"
+    assert meters.display_digits(199.9, None) is None
+
+
+def test_meter_presets_are_described_as_classes_of_meter(client):
+    from fieldapp import meters
+    presets = meters.presets()
+    labels = [p["label"] for p in presets]
+    assert len(set(labels)) == len(labels)              # each class tells itself apart
+    multi = next(p for p in presets if len(p["ranges"]) > 1)
+    assert multi["class"]["decades"] == len(multi["ranges"]) == 4
+    assert multi["label"].startswith("autoranging EC meter")
+    page = client.get("/meters").get_data(as_text=True)
+    for p in presets:
+        assert p["label"] in page
+    assert "3½-digit display" in page and "4 decades in 4 ranges" in page
+    assert "no ATC" in page and "not any one product" in page
+    # a meter made from a class by its label gets all of the class's ranges
+    r = client.post("/api/meters", json={"preset": multi["label"], "name": "handheld 1"})
+    assert r.status_code == 201 and len(r.get_json()["ranges"]) == 4

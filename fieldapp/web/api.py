@@ -3,9 +3,8 @@ from __future__ import annotations
 
 from flask import Blueprint, current_app, jsonify, request
 
-from .. import labels, meters, records, store
+from .. import labels, meters, records, sites, store
 from ..science import InputError, extracts, osmotic, tolerance, units
-from ..science.convert import parse_number
 from . import get_db
 
 bp = Blueprint("api", __name__, url_prefix="/api")
@@ -131,7 +130,8 @@ def list_meters():
 def create_meter():
     body = _body()
     if body.get("preset") and not body.get("ranges"):
-        preset = next((p for p in meters.presets() if p["name"] == body["preset"]), None)
+        preset = next((p for p in meters.presets() if body["preset"] in (p["name"], p["label"])),
+                      None)
         if preset is None:
             raise InputError("Unknown preset; see GET /api/meters.", "preset")
         body = {**preset, **{k: v for k, v in body.items() if k != "preset"}}
@@ -162,37 +162,17 @@ def list_calibrations():
     return jsonify(store.list_calibrations(db, meter["id"]))
 
 
-def _site_attrs(body: dict) -> dict:
-    attrs = {}
-    if "crop" in body:
-        attrs["crop"] = tolerance.find_crop(body["crop"]).name if body["crop"] else None
-    for key in ("latitude", "longitude", "sp_pct"):
-        if key in body:
-            attrs[key] = parse_number(body[key], key)
-    if attrs.get("latitude") is not None and not -90 <= attrs["latitude"] <= 90:
-        raise InputError("Latitude must be between −90 and 90.", "latitude")
-    if attrs.get("longitude") is not None and not -180 <= attrs["longitude"] <= 180:
-        raise InputError("Longitude must be between −180 and 180.", "longitude")
-    if attrs.get("sp_pct") is not None and not 5 <= attrs["sp_pct"] <= 400:
-        raise InputError("Saturation percentage must be between 5 and 400 %.", "sp_pct")
-    if "texture" in body:
-        attrs["texture"] = body["texture"] or None
-        if attrs["texture"]:
-            extracts.sp_for_texture(attrs["texture"])
-    if "kind" in body:
-        if body["kind"] not in ("field", "greenhouse"):
-            raise InputError("Site kind is field or greenhouse.", "kind")
-        attrs["kind"] = body["kind"]
-    if "notes" in body:
-        notes = str(body["notes"] or "")
-        if len(notes) > records.NOTE_MAX:
-            raise InputError(f"Notes are at most {records.NOTE_MAX} characters.", "notes")
-        attrs["notes"] = notes
-    return attrs
+def _site_attrs(body, creating: bool = False) -> dict:
+    """The site settings in a JSON body, validated (see fieldapp.sites): name,
+    kind, crop, texture, sp_pct, latitude, longitude, notes. A wrong JSON type
+    or value answers 400 naming the field."""
+    return sites.validate_settings(body, creating=creating)
 
 
 def site_dict(row) -> dict:
-    return {k: row[k] for k in row.keys()}
+    d = {k: row[k] for k in row.keys()}
+    d["kind_label"] = sites.kind_label(d.get("kind"))
+    return d
 
 
 @bp.get("/sites")
@@ -202,24 +182,45 @@ def list_sites():
 
 @bp.post("/sites")
 def create_site():
-    body = _body()
+    """Set up a new site with its settings; its creation opens its history."""
     db = get_db()
-    name = store.clean_site_name(body.get("name"))
-    attrs = _site_attrs(body)
-    if store.get_site(db, name) is not None:
+    attrs = _site_attrs(_body(), creating=True)
+    name = store.clean_site_name(attrs.pop("name"))
+    if store.get_site(db, name, former_names=False) is not None:
         raise store.StoreError(f"A site called {name!r} exists already.", "name", 409)
     with store.transaction(db):
-        row = store.ensure_site(db, name, **attrs)
+        row = store.ensure_site(db, name, former_names=False, **attrs)
     return jsonify(site_dict(row)), 201
+
+
+@bp.get("/sites/<int:site_id>")
+def get_site(site_id):
+    row = store.get_site(get_db(), site_id)
+    if row is None:
+        raise store.StoreError("No such site.", "site", 404)
+    return jsonify(site_dict(row))
 
 
 @bp.patch("/sites/<int:site_id>")
 def update_site(site_id):
+    """Change some settings of a site (only the keys sent); the change is kept
+    in the site's history in the same transaction. Later readings use the new
+    SP, texture and crop; stored readings keep the numbers they were saved with."""
     db = get_db()
     if store.get_site(db, site_id) is None:
         raise store.StoreError("No such site.", "site", 404)
-    row = store.update_site(db, site_id, **_site_attrs(_body()))
-    return jsonify(site_dict(row))
+    row, change_no = store.change_site_settings(db, site_id, _site_attrs(_body()))
+    return jsonify({**site_dict(row), "change_no": change_no})
+
+
+@bp.get("/sites/<int:site_id>/history")
+def site_history(site_id):
+    """The kept changes of a site's settings, oldest first, each with its rows
+    (field, old_value, new_value) and a plain sentence."""
+    db = get_db()
+    if store.get_site(db, site_id) is None:
+        raise store.StoreError("No such site.", "site", 404)
+    return jsonify(sites.history_changes(store.site_history(db, site_id)))
 
 
 @bp.get("/meta")
@@ -234,4 +235,5 @@ def meta():
         crops=sorted(c.name for c in tolerance.CROPS.values()),
         ece_methods=list(extracts.REGRESSIONS),
         psi_s_routes=list(osmotic.PSI_S_ROUTES),
+        site_kinds=[{"key": k, "label": lab} for k, lab in sites.SITE_KINDS.items()],
     )

@@ -3,9 +3,11 @@ from __future__ import annotations
 
 import datetime as dt
 
-from flask import Blueprint, Response, abort, render_template, request, stream_with_context
+from flask import (Blueprint, Response, abort, current_app, render_template, request,
+                   stream_with_context)
 
 from .. import csvio, store
+from .. import sites as sitecfg
 from ..science import extracts, tolerance, units
 from ..science.convert import CAUTIONS
 from . import get_db
@@ -40,7 +42,12 @@ def entry():
 def meters_page():
     from .. import meters
     db = get_db()
-    return render_template("meters.html", meters=store.list_meters(db), presets=meters.presets(),
+    max_age = float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS",
+                                           meters.DEFAULT_MAX_AGE_DAYS))
+    ms = store.list_meters(db)
+    for m in ms:
+        m["check"] = meters.check_status(m["last_check"], max_age)
+    return render_template("meters.html", meters=ms, presets=meters.presets(), max_age_days=max_age,
                            units=units.DISPLAY_UNITS, cautions=CAUTIONS,
                            default_tolerance=meters.DEFAULT_TOLERANCE_PCT)
 
@@ -58,7 +65,32 @@ def service_worker():
 def sites():
     db = get_db()
     return render_template("sites.html", sites=store.list_sites(db),
-                           to_check=store.open_flag_counts(db))
+                           kind_label=sitecfg.kind_label, to_check=store.open_flag_counts(db))
+
+
+def _settings_meta() -> dict:
+    return {"kinds": sitecfg.SITE_KINDS,
+            "crops": sorted(c.name for c in tolerance.CROPS.values()),
+            "textures": list(extracts.TEXTURES)}
+
+
+@bp.get("/sites/new")
+def site_new():
+    """Set up a new site with its settings (POST /api/sites from static/site_settings.js)."""
+    return render_template("site_settings.html", site=None, history=[], meta=_settings_meta())
+
+
+@bp.get("/sites/<int:site_id>/settings")
+def site_settings(site_id):
+    """The settings form of a site (PATCH /api/sites/<id>) and the kept history
+    of its settings, newest first."""
+    db = get_db()
+    site = store.get_site(db, site_id)
+    if site is None:
+        abort(404)
+    history = sitecfg.history_changes(store.site_history(db, site_id))[::-1]
+    return render_template("site_settings.html", site=site, history=history,
+                           meta=_settings_meta(), kind_label=sitecfg.kind_label)
 
 
 @bp.get("/sites/<int:site_id>")
@@ -85,6 +117,8 @@ def site_log(site_id):
             r["previous"] = store.reading_dict(old) if old is not None else None
     from .views import site_view  # the summary and charts at the top of the log
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
+                           kind_label=sitecfg.kind_label,
+                           saved=request.args.get("saved") == "1",
                            summary=site_view(db, site),
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
                            date_from=date_from or "", date_to=date_to or "")

@@ -8,10 +8,11 @@ from __future__ import annotations
 
 import datetime as dt
 
-from flask import Blueprint, abort, jsonify, render_template, request, url_for
+from flask import Blueprint, abort, current_app, jsonify, render_template, request, url_for
 from markupsafe import Markup
 
-from .. import charts, interpret, store
+from .. import charts, interpret, meters, store
+from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
 from . import get_db
 
@@ -56,6 +57,7 @@ def site_view(db, site) -> dict:
         "measures": interpret.TARGET_MEASURES,
         "crop": crop.name if crop else None,
         "report_url": url_for("views.report", site_id=site["id"]),
+        "settings_url": url_for("pages.site_settings", site_id=site["id"]),
         "map_url": url_for("views.map_page"),
         "has_visits": bool(visits),
         "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
@@ -75,6 +77,33 @@ def _report_cautions(readings) -> list[str]:
     if "water" in kinds:
         out.append(tolerance.LEACHING_CAUTION)
     return list(dict.fromkeys(out))
+
+
+def _max_age_days() -> float:
+    return float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS", meters.DEFAULT_MAX_AGE_DAYS))
+
+
+def meter_checks(db, readings, max_age_days: float) -> list[dict]:
+    """Each meter used on a visit with the calibration check that was valid
+    when its first reading of the visit was taken, and how that check stood
+    then: passed, failed, due (older than the limit) or none on record."""
+    first: dict[str, str] = {}
+    for r in readings:
+        name = " ".join(str(r.get("meter") or "").split())
+        if name and (name not in first or r["taken_at"] < first[name]):
+            first[name] = r["taken_at"]
+    out = []
+    for name in sorted(first, key=str.lower):
+        meter = store.get_meter(db, name)
+        if meter is None:
+            out.append({"meter": name, "state": "unknown",
+                        "label": "Not a meter profile on record: no range or check to compare."})
+            continue
+        taken = meters._taken_utc(first[name])
+        check = store.last_calibration(db, meter["id"],
+                                       before_utc=taken.isoformat(timespec="seconds"))
+        out.append({"meter": meter["name"], **meters.check_status(check, max_age_days, taken)})
+    return out
 
 
 @bp.get("/sites/<int:site_id>/report")
@@ -97,7 +126,7 @@ def report(site_id):
             abort(404)
     elif visits:
         visit = store.get_visit(db, visits[0]["id"])
-    readings, summary, figures, profile = [], None, [], None
+    readings, summary, figures, profile, checks = [], None, [], None, []
     if visit is not None:
         rows = store.readings_for_visit(db, visit["id"])
         readings = [store.reading_dict(r) for r in rows]
@@ -115,6 +144,7 @@ def report(site_id):
                                                        highlight=day))
         prof = interpret.profile_spec(site, all_readings, day=day)
         profile = prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))}
+        checks = meter_checks(db, readings, _max_age_days())
     sv = None
     if summary is not None:
         sv = {"s": summary, "charts": figures, "profile": profile, "targets": [],
@@ -125,7 +155,8 @@ def report(site_id):
         "report.html", site=site, visit=visit, visits=visits, readings=readings,
         summary=sv,
         cautions=_report_cautions(readings),
-        printed_at=dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M"),
+        printed_at=sitecfg.local_time_text(), kind_label=sitecfg.kind_label(site["kind"]),
+        meter_checks=checks, max_age_days=_max_age_days(),
         status_counts={k: sum(1 for r in readings if r["status"] == k)
                        for k in ("current", "corrected", "void")})
 
