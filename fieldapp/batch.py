@@ -16,11 +16,13 @@ from .science import InputError, convert, extracts
 
 #: Input columns convert-csv understands; only value and unit are required.
 INPUT_COLUMNS = ("value", "unit", "sample", "ratio", "temp_c", "compensated", "sp",
-                 "texture", "tds_factor", "theta_g_pct", "matric_MPa", "ece_method", "crop")
+                 "texture", "tds_factor", "theta_g_pct", "matric_MPa", "ece_method", "crop",
+                 "salt_type")
 
 #: Output columns, in order, appended after the input columns.
 OUTPUT_COLUMNS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
                   "psi_s_handbook60_MPa", "psi_s_rule_004_MPa", "psi_s_nacl_pitzer_MPa",
+                  "psi_s_seawater_pss78_MPa",
                   "tds_mg_L", "relative_yield_pct", "leaching_requirement", "flags")
 
 CHUNK_ROWS = 50_000
@@ -43,7 +45,9 @@ def _cell_number(cell: str, line: int, field: str) -> float:
 def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
     n = len(rows)
     value = np.empty(n)
-    cols = {k: np.empty(n, dtype=object) for k in ("unit", "sample", "texture", "ece_method", "crop")}
+    cols = {k: np.empty(n, dtype=object)
+            for k in ("unit", "sample", "texture", "ece_method", "crop", "salt_type")}
+    salt_cache: dict[str, str | None] = {}
     nums = {k: np.empty(n) for k in ("ratio_n", "temp_c", "sp_pct", "tds_factor",
                                       "theta_g_pct", "matric_MPa")}
     comp = np.zeros(n, dtype=bool)
@@ -66,6 +70,13 @@ def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
         cols["texture"][i] = (r.get("texture") or "").strip() or None
         cols["ece_method"][i] = (r.get("ece_method") or "").strip() or None
         cols["crop"][i] = (r.get("crop") or "").strip() or None
+        salt = (r.get("salt_type") or "").strip()
+        if salt not in salt_cache:
+            try:
+                salt_cache[salt] = convert.parse_salt_type(salt)
+            except InputError as e:
+                raise RowError(f"line {line}: {e.message}", "salt_type") from None
+        cols["salt_type"][i] = salt_cache[salt]
         ratio = (r.get("ratio") or "").strip()
         if ratio:
             if ratio not in ratio_cache:
@@ -104,7 +115,8 @@ def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
                               compensated=comp, sp_pct=nums["sp_pct"],
                               texture=cols["texture"], tds_factor=nums["tds_factor"],
                               theta_g_pct=nums["theta_g_pct"], matric_MPa=nums["matric_MPa"],
-                              ece_method=cols["ece_method"], crop=cols["crop"])
+                              ece_method=cols["ece_method"], crop=cols["crop"],
+                              salt_type=cols["salt_type"])
 
 
 def _check_sample(kind):

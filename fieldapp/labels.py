@@ -115,6 +115,15 @@ def method_label(key: str | None) -> str:
     return _words(key).lower()
 
 
+def sample_label(key: str | None) -> str:
+    """A sample kind in words, short: "soil:water extract 1:N (by mass)"."""
+    if not key:
+        return ""
+    from .science import extracts
+    kind = extracts.SAMPLE_KINDS.get(str(key))
+    return kind.label[:1].lower() + kind.label[1:] if kind else _words(key).lower()
+
+
 def route_label(key: str | None) -> str:
     """Plain words for a solute-potential route key."""
     if not key:

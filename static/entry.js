@@ -27,6 +27,7 @@
               "temp_c", "compensated", "crop", "visited_by"];
   var TDS_UNITS = ["ppm", "mg/L", "ppt", "g/L"];
   var WATER_KINDS = ["water", "drain"];
+  var KIND_SAMPLE = { water_source: "water", drain: "drain" };   // the one sample such a site gives
   var LAST = "fieldapp.form.v2";
   var TEMP_CARRY_MS = 30 * 60 * 1000;   // a sample's temperature is stale after 30 min
   var ANSWER_MS = 4000;                 // no answer by then: the reading waits on the device
@@ -376,6 +377,9 @@
       if (info.unit && !touched.unit) {
         setUnitQuiet(info.unit); markCarried("unit", "as last time here");
       }
+    } else if (info && KIND_SAMPLE[info.kind] && !touched.sample) {
+      // a site set up as a water source or drain, with no reading yet
+      $("sample").value = KIND_SAMPLE[info.kind]; markCarried("sample", "from the site's kind");
     } else if (!touched.sample) {
       $("sample").value = "";   // a new site: the scout chooses what was measured
       uncarry("sample");

@@ -47,6 +47,7 @@ def register_common(app):
     app.add_template_filter(labels.route_label, "route_label")
     app.add_template_filter(labels.readable_source, "cite")
     app.add_template_filter(lambda s: labels.SEVERITY_LABELS.get(s, s), "severity_label")
+    app.add_template_filter(labels.sample_label, "sample_label")
 
     @app.errorhandler(InputError)
     def _input_error(e):
