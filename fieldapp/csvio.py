@@ -17,6 +17,7 @@ import csv
 import io
 import json
 import math
+import unicodedata
 from typing import IO, Iterator
 
 from . import __version__, store
@@ -31,7 +32,12 @@ COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", 
            "uuid", "visited_by", "recorded_at", "app_version", "flag_acks")
 NUMERIC = {"depth_cm", "value", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa",
            "ec25_dS_m", "ece_dS_m", "psi_s_MPa"}
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+#: Characters that make a spreadsheet read a cell as a formula (OWASP CSV
+#: injection guidance), with their full-width and small forms, which some
+#: spreadsheets fold to the ASCII ones.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r",
+                  "\uff1d", "\uff0b", "\uff0d", "\uff20",      # full width ＝＋－＠
+                  "\ufe66", "\ufe62", "\ufe63", "\ufe6b")      # small ﹦﹢﹣﹫
 
 
 def plain_number(x) -> str:
@@ -54,16 +60,39 @@ def plain_number(x) -> str:
 _FORMULA_FIRST = frozenset(_FORMULA_START)
 
 
+def _invisible(c: str) -> bool:
+    """A character that shows nothing before a formula sign: spaces, controls,
+    format characters (zero-width space, joiners, direction marks, BOM)."""
+    return c.isspace() or unicodedata.category(c) in ("Cc", "Cf", "Zs", "Zl", "Zp")
+
+
+def _formula_like(s: str) -> bool:
+    for c in s:                     # stops at the first visible character
+        if c in _FORMULA_FIRST:
+            return True
+        if not _invisible(c):
+            return False
+    return False
+
+
 def neutralize(text) -> str:
-    """Prefix text a spreadsheet would treat as a formula with an apostrophe."""
+    """Prefix with an apostrophe text a spreadsheet would treat as a formula
+    (also behind invisible leading characters), and text that starts with an
+    apostrophe itself, so that :func:`unneutralize` gives back exactly what
+    was typed: ``'=1+1`` exports as ``''=1+1`` and imports as ``'=1+1``."""
     if text is None:
         return ""
     s = str(text)
-    return "'" + s if s[:1] in _FORMULA_FIRST else s
+    return "'" + s if s[:1] == "'" or _formula_like(s) else s
 
 
 def unneutralize(text: str) -> str:
-    return text[1:] if text.startswith("'") and text[1:].startswith(_FORMULA_START) else text
+    """The inverse of :func:`neutralize` on every text it produced."""
+    if text.startswith("'"):
+        rest = text[1:]
+        if rest[:1] == "'" or _formula_like(rest):
+            return rest
+    return text
 
 
 def _acks_cell(acks: list[dict]) -> str:
