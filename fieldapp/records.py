@@ -33,6 +33,20 @@ NUMBER_FIELDS = ("value", "temp_c", "sp", "depth_cm", "tds_factor", "theta_g_pct
 FIELD_TEXT_MAX = 200
 
 
+def check_number_text(text: str, field: str) -> None:
+    """A typed number so small that it would be stored as 0 ("1e-400") is
+    refused rather than silently zeroed."""
+    mantissa = text.strip().lower().split("e", 1)[0]
+    if "e" in text.lower() and any(c in "123456789" for c in mantissa):
+        try:
+            x = float(text.strip().replace(",", "."))
+        except ValueError:
+            return                   # parse_number gives the message
+        if x == 0.0:
+            raise InputError(f"{text.strip()!r} is too small to store; it would become 0.",
+                             field)
+
+
 def check_fields(payload) -> dict:
     """Refuse a field of the wrong JSON type or of absurd length, before any
     parsing: a list, an object or true where text or a number belongs is a
@@ -53,6 +67,8 @@ def check_fields(payload) -> dict:
         v = payload.get(key)
         if isinstance(v, (list, dict)):
             raise InputError(f"{key} must be a number.", key)
+        if isinstance(v, str) and key != "ratio" and len(v) <= FIELD_TEXT_MAX:
+            check_number_text(v, key)
     v = payload.get("compensated")
     if isinstance(v, (list, dict)):
         raise InputError("compensated must be true or false.", "compensated")

@@ -731,3 +731,22 @@ def log_summary(conn) -> dict:
         "sites": conn.execute("SELECT COUNT(*) FROM sites").fetchone()[0],
         "newest": conn.execute("SELECT MAX(recorded_at) FROM readings").fetchone()[0],
     }
+
+
+def readings_brief(conn, uuids) -> dict[str, dict]:
+    """What an import compares for readings already in the log, by uuid: site
+    name, value, unit, status, what it corrects and what corrected it. One
+    query per 500 uuids instead of one per reading."""
+    uuids = list(uuids)
+    out: dict[str, dict] = {}
+    for k in range(0, len(uuids), 500):
+        part = uuids[k:k + 500]
+        for r in conn.execute(
+                "SELECT r.uuid, s.name AS site, r.value, r.unit, st.status, "
+                "st.corrected_by_uuid, p.uuid AS supersedes_uuid, r.id "
+                "FROM readings r JOIN sites s ON s.id = r.site_id "
+                "JOIN reading_status st ON st.id = r.id "
+                "LEFT JOIN readings p ON p.id = r.supersedes_id "
+                f"WHERE r.uuid IN ({','.join('?' * len(part))})", part):
+            out[r["uuid"]] = dict(r)
+    return out
