@@ -405,6 +405,33 @@ def _paired_device():
     return row
 
 
+def safe_next(target) -> str:
+    """A path on this server to return to after pairing, or "/".
+
+    Read as a browser reads an address: tabs and line breaks are dropped
+    (the URL standard strips them), a backslash counts as a slash; what is
+    left must parse with no scheme and no host and start with one "/".
+    The page's script checks again with the browser's own URL parser."""
+    s = "".join(c for c in str(target or "") if c not in "\t\n\r").replace("\\", "/")
+    if len(s) > 2000 or not s.startswith("/") or s.startswith("//"):
+        return "/"
+    try:
+        p = urlsplit(s)
+    except ValueError:
+        return "/"
+    if p.scheme or p.netloc or any(ord(c) < 32 for c in s):
+        return "/"
+    return s
+
+
+def _return_path() -> str:
+    """The address asked for, percent-encoded as it came (full_path is decoded)."""
+    from urllib.parse import quote
+    path = quote(request.path, safe="/-._~!$&'()*+,;=:@")
+    qs = request.query_string.decode("latin-1")
+    return safe_next(path + ("?" + qs if qs else ""))
+
+
 def _not_paired():
     msg = ("This device is not paired with the field laptop. Open /pair and type the code "
            "the laptop shows.")
@@ -412,7 +439,7 @@ def _not_paired():
         resp = jsonify(error=msg, field=None, pair="/pair")
     else:
         resp = Response(render_template("pair.html", mode="pair", lan=True, paired=None,
-                                        next=request.full_path.rstrip("?")),
+                                        next=_return_path()),
                         mimetype="text/html")
     resp.status_code = 401
     resp.headers["WWW-Authenticate"] = 'FieldPairing realm="fieldapp"'
