@@ -153,7 +153,9 @@ def cmd_serve(a) -> int:
                           "LAN": lan})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
-    if a.demo:
+    if app.config.get("LOG_READ_ONLY"):
+        print(f"fieldapp: READ-ONLY. {app.config['LOG_READ_ONLY']}", flush=True)
+    elif a.demo:
         conn = store.connect(app.config["DATABASE"])
         try:
             n = demo.load(conn)
@@ -172,8 +174,17 @@ def cmd_serve(a) -> int:
 
 
 def cmd_export(a) -> int:
+    from pathlib import Path
     from . import csvio, store
-    conn = _open_store(a)
+    db_path = Path(_data_dir(a)) / store.DB_NAME
+    state = store.inspect_log(db_path)       # export never writes: open read-only
+    if state["state"] == "new":
+        raise InputError(f"there is no log at {db_path}.", "data")
+    if state["state"] == "refused":
+        raise InputError(state["problem"], "data")
+    if state["problem"]:
+        print(f"fieldapp: {state['problem']}", file=sys.stderr)
+    conn = store.connect_readonly(db_path)
     try:
         site_id = None
         if a.site:
@@ -183,7 +194,11 @@ def cmd_export(a) -> int:
             site_id = site["id"]
         out = open(a.output, "w", encoding="utf-8", newline="") if a.output else sys.stdout
         try:
-            csvio.export(conn, out, site_id)
+            report: dict = {}
+            csvio.export(conn, out, site_id, report=report)
+            if report.get("skipped"):
+                print(f"fieldapp: {report['skipped']} damaged row(s) could not be read and "
+                      "are missing from the export.", file=sys.stderr)
         finally:
             if a.output:
                 out.close()
@@ -300,9 +315,15 @@ def main(argv=None) -> int:
         print(f"fieldapp: {e.message}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except Exception as e:  # noqa: BLE001 - one line, never a traceback, for any store error
+        import sqlite3
         from .store import StoreError
         if isinstance(e, StoreError):
             print(f"fieldapp: {e.message}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+        if isinstance(e, sqlite3.DatabaseError):
+            print(f"fieldapp: the log could not be read or written ({e}). If it is damaged, "
+                  "export what can be read and restore a backup (python -m fieldapp "
+                  "restore --data DIR FILE).", file=sys.stderr)
             return EXIT_BAD_INPUT
         raise
     except BrokenPipeError:

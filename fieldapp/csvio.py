@@ -18,6 +18,7 @@ import io
 import json
 import math
 import re
+import sqlite3
 import unicodedata
 from typing import IO, Iterator
 
@@ -115,29 +116,34 @@ def _yes_no(v) -> str:
     return "yes" if v else "no"
 
 
-def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500) -> Iterator[str]:
+def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
+                 report: dict | None = None) -> Iterator[str]:
     """Yield the CSV text piece by piece: BOM + header, then a few hundred rows
-    at a time. Each column's formatter is chosen once, not per cell."""
+    at a time. Each column's formatter is chosen once, not per cell. Rows are
+    read in keyset batches; on a damaged log every readable row comes out and
+    ``report["skipped"]`` counts the ids that could not be read."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(COLUMNS)
     yield BOM + buf.getvalue()
-    acked = store.acked_reading_ids(conn)
+    try:
+        acked = store.acked_reading_ids(conn)
+    except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
+        acked = set()
     formatters = [plain_number if c in NUMERIC else _yes_no if c == "compensated" else neutralize
                   for c in COLUMNS[:-1]]          # the last column, flag_acks, is built apart
     idx = None
     pending = 0
     buf.seek(0)
     buf.truncate()
-    for row in store.iter_readings(conn, site_id=site_id):
+    for row in store.iter_readings_keyset(conn, site_id=site_id, report=report):
         if idx is None:
             keys = row.keys()
             idx = [keys.index(c) for c in COLUMNS[:-1]]
             id_pos = keys.index("id")
         cells = [f(row[i]) for f, i in zip(formatters, idx)]
         rid = row[id_pos]
-        cells.append(neutralize(_acks_cell(store.acks_for_readings(conn, [rid])[rid]))
-                     if rid in acked else "")
+        cells.append(neutralize(_acks_cell(_acks_or_none(conn, rid))) if rid in acked else "")
         w.writerow(cells)
         pending += 1
         if pending >= rows_per_piece:
@@ -149,8 +155,16 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500) ->
         yield buf.getvalue()
 
 
-def export(conn, out: IO[str], site_id: int | None = None) -> None:
-    for piece in export_lines(conn, site_id):
+def _acks_or_none(conn, rid: int) -> list[dict]:
+    try:
+        return store.acks_for_readings(conn, [rid])[rid]
+    except sqlite3.DatabaseError:
+        return []
+
+
+def export(conn, out: IO[str], site_id: int | None = None,
+           report: dict | None = None) -> None:
+    for piece in export_lines(conn, site_id, report=report):
         out.write(piece)
 
 
