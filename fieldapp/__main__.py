@@ -150,6 +150,7 @@ def cmd_serve(a) -> int:
     lan = a.lan or binds_to_network(bind)      # never on the network without pairing
     try:
         app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days,
+                          "PAIRING_IDLE_DAYS": a.pairing_idle_days,
                           "LAN": lan})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
@@ -278,6 +279,9 @@ def build_parser() -> argparse.ArgumentParser:
     sv.add_argument("--port", type=int, default=8080)
     sv.add_argument("--data", help="folder for the log (default: your user data folder)")
     sv.add_argument("--demo", action="store_true", help="load an invented demo scenario")
+    sv.add_argument("--pairing-idle-days", type=float, default=90.0,
+                    help="a paired tablet not seen for this many days must pair again "
+                         "(default 90)")
     sv.add_argument("--check-days", type=float, default=7.0,
                     help="flag readings from a meter whose last calibration check is older "
                          "than this many days (default 7)")

@@ -917,3 +917,28 @@ def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
             return
         yield from rows
         last = rows[-1]["id"]
+
+
+# ---- pairing limiter and bounds (schema 010)
+
+def pairing_failure_counts(conn, address: str, since: float) -> dict:
+    """Wrong codes since ``since`` (epoch seconds): from this address and
+    overall, with the oldest time of each (for Retry-After)."""
+    a = conn.execute("SELECT COUNT(*), MIN(failed_at) FROM pairing_failures "
+                     "WHERE address = ? AND failed_at > ?", (address, since)).fetchone()
+    t = conn.execute("SELECT COUNT(*), MIN(failed_at) FROM pairing_failures "
+                     "WHERE failed_at > ?", (since,)).fetchone()
+    return {"address": a[0], "address_oldest": a[1], "overall": t[0], "overall_oldest": t[1]}
+
+
+def add_pairing_failure(conn, address: str, at: float, prune_before: float) -> None:
+    with transaction(conn):
+        conn.execute("DELETE FROM pairing_failures WHERE failed_at <= ?", (prune_before,))
+        conn.execute("INSERT INTO pairing_failures (address, failed_at) VALUES (?, ?)",
+                     (address, at))
+
+
+def devices_paired_with(conn, code_id: int) -> int:
+    """Devices a code has paired (unpaired ones included: the bound is on the code)."""
+    return conn.execute("SELECT COUNT(*) FROM paired_devices WHERE code_id = ?",
+                        (code_id,)).fetchone()[0]

@@ -86,3 +86,88 @@ def test_a_tablet_that_pairs_from_a_hostile_address_lands_on_this_server(browser
         lap_ctx.close()
         tablet_browser.close()
         srv.stop()
+
+
+# ------------------------------------------------------------ limiter, bounds, expiry
+
+def new_code(app) -> str:
+    r = app.test_client().post("/pair/codes", json={})
+    assert r.status_code == 201
+    return r.get_json()["code"]
+
+
+def pair(app, code, ip, name="Tablet"):
+    return app.test_client().post("/pair", json={"code": code, "name": name},
+                                  headers=TABLET_HOST, environ_overrides={"REMOTE_ADDR": ip})
+
+
+def test_the_issue_case_a_right_code_passes_while_four_addresses_are_locked_out(lan_app):
+    code = new_code(lan_app)
+    for k in range(20):                                   # 20 wrong codes from 4 addresses
+        pair(lan_app, "WRNG-CODE", ip=f"192.0.2.{30 + k % 4}")
+    for k in range(4):
+        r = pair(lan_app, code, ip=f"192.0.2.{30 + k}")
+        assert r.status_code == 429 and int(r.headers["Retry-After"]) > 0
+    assert pair(lan_app, code, ip="192.0.2.77").status_code == 200
+
+
+def test_the_limiter_survives_a_restart(tmp_path):
+    cfg = {"TESTING": True, "DATA_DIR": str(tmp_path / "lan"), "LAN": True}
+    app = create_app(cfg)
+    code = new_code(app)
+    for _ in range(security.FAILS_PER_ADDRESS):
+        assert pair(app, "WRNG-CODE", ip="192.0.2.40").status_code == 403
+    again = create_app(cfg)                               # the laptop restarts
+    assert pair(again, code, ip="192.0.2.40").status_code == 429
+
+
+def test_a_parallel_burst_is_counted_one_by_one(lan_app):
+    import threading
+    new_code(lan_app)
+    answers = []
+
+    def one():
+        answers.append(pair(lan_app, "WRNG-CODE", ip="192.0.2.50").status_code)
+    threads = [threading.Thread(target=one) for _ in range(12)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert answers.count(403) == security.FAILS_PER_ADDRESS       # checked: exactly 5
+    assert answers.count(429) == 12 - security.FAILS_PER_ADDRESS
+
+
+def test_a_code_pairs_a_bounded_number_of_devices(tmp_path):
+    app = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "lan"), "LAN": True,
+                      "PAIRING_DEVICES_PER_CODE": 3})
+    code = new_code(app)
+    for k in range(3):
+        assert pair(app, code, ip=f"192.0.2.{60 + k}").status_code == 200
+    r = pair(app, code, ip="192.0.2.70")
+    assert r.status_code == 409 and "new code" in r.get_json()["error"]
+    assert pair(app, new_code(app), ip="192.0.2.70").status_code == 200
+    assert security.DEVICES_PER_CODE == 10
+
+
+def test_an_idle_pairing_expires_and_the_devices_page_shows_last_seen(lan_app):
+    import sqlite3
+    code = new_code(lan_app)
+    c = lan_app.test_client()
+    r = c.post("/pair", json={"code": code, "name": "Old tablet"}, headers=TABLET_HOST,
+               environ_overrides={"REMOTE_ADDR": "192.0.2.80"})
+    assert r.status_code == 200
+    env = {"REMOTE_ADDR": "192.0.2.80"}
+    assert c.get("/api/sites", headers=TABLET_HOST, environ_overrides=env).status_code == 200
+    db = sqlite3.connect(lan_app.config["DATABASE"])
+    db.execute("UPDATE paired_devices SET last_seen_at = '2020-01-01T00:00:00+00:00'")
+    db.commit()
+    db.close()
+    r = c.get("/api/sites", headers=TABLET_HOST, environ_overrides=env)
+    assert r.status_code == 401 and "expired" in r.get_json()["error"]
+    r = c.post("/api/readings", json={"site": "Block 3", "sample": "water", "value": "1",
+                                      "unit": "dS/m"}, headers=TABLET_HOST,
+               environ_overrides=env)
+    assert r.status_code == 401
+    page = lan_app.test_client().get("/pair/devices").get_data(as_text=True)
+    assert "last seen" in page and "2020-01-01 00:00" in page
+    assert security.PAIRING_IDLE_DAYS == 90
