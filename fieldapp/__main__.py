@@ -169,8 +169,16 @@ def cmd_serve(a) -> int:
         print("\n".join(start_lan(app, bind, a.port)), flush=True)
     print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
           flush=True)
-    waitress.serve(app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
-                   max_request_body_size=app.config["MAX_CONTENT_LENGTH"], _quiet=True)
+    from .web import connections
+    server = waitress.create_server(
+        app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
+        max_request_body_size=app.config["MAX_CONTENT_LENGTH"],
+        **connections.waitress_options(idle_timeout_s=a.idle_timeout))
+    connections.guard(server)        # the laptop always gets a slot; caps per address
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        pass
     return 0
 
 
@@ -286,6 +294,7 @@ def build_parser() -> argparse.ArgumentParser:
                     help="flag readings from a meter whose last calibration check is older "
                          "than this many days (default 7)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
+    sv.add_argument("--idle-timeout", type=int, default=30, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)
     from .backup import add_commands as add_backup_commands
     add_backup_commands(sub)                    # backup, restore
