@@ -159,10 +159,13 @@ def cmd_serve(a) -> int:
     lan = a.lan or binds_to_network(bind)      # never on the network without pairing
     try:
         app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days,
+                          "PAIRING_IDLE_DAYS": a.pairing_idle_days,
                           "LAN": lan})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
-    if a.demo:
+    if app.config.get("LOG_READ_ONLY"):
+        print(f"fieldapp: READ-ONLY. {app.config['LOG_READ_ONLY']}", flush=True)
+    elif a.demo:
         conn = store.connect(app.config["DATABASE"])
         try:
             n = demo.load(conn)
@@ -175,14 +178,31 @@ def cmd_serve(a) -> int:
         print("\n".join(start_lan(app, bind, a.port)), flush=True)
     print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
           flush=True)
-    waitress.serve(app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
-                   max_request_body_size=app.config["MAX_CONTENT_LENGTH"], _quiet=True)
+    from .web import connections
+    server = waitress.create_server(
+        app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
+        max_request_body_size=app.config["MAX_CONTENT_LENGTH"],
+        **connections.waitress_options(idle_timeout_s=a.idle_timeout))
+    connections.guard(server)        # the laptop always gets a slot; caps per address
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        pass
     return 0
 
 
 def cmd_export(a) -> int:
+    from pathlib import Path
     from . import csvio, store
-    conn = _open_store(a)
+    db_path = Path(_data_dir(a)) / store.DB_NAME
+    state = store.inspect_log(db_path)       # export never writes: open read-only
+    if state["state"] == "new":
+        raise InputError(f"there is no log at {db_path}.", "data")
+    if state["state"] == "refused":
+        raise InputError(state["problem"], "data")
+    if state["problem"]:
+        print(f"fieldapp: {state['problem']}", file=sys.stderr)
+    conn = store.connect_readonly(db_path)
     try:
         site_id = None
         if a.site:
@@ -192,7 +212,11 @@ def cmd_export(a) -> int:
             site_id = site["id"]
         out = open(a.output, "w", encoding="utf-8", newline="") if a.output else sys.stdout
         try:
-            csvio.export(conn, out, site_id)
+            report: dict = {}
+            csvio.export(conn, out, site_id, report=report)
+            if report.get("skipped"):
+                print(f"fieldapp: {report['skipped']} damaged row(s) could not be read and "
+                      "are missing from the export.", file=sys.stderr)
         finally:
             if a.output:
                 out.close()
@@ -274,10 +298,14 @@ def build_parser() -> argparse.ArgumentParser:
     sv.add_argument("--port", type=int, default=8080)
     sv.add_argument("--data", help="folder for the log (default: your user data folder)")
     sv.add_argument("--demo", action="store_true", help="load an invented demo scenario")
+    sv.add_argument("--pairing-idle-days", type=float, default=90.0,
+                    help="a paired tablet not seen for this many days must pair again "
+                         "(default 90)")
     sv.add_argument("--check-days", type=float, default=7.0,
                     help="flag readings from a meter whose last calibration check is older "
                          "than this many days (default 7)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
+    sv.add_argument("--idle-timeout", type=int, default=30, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)
     from .backup import add_commands as add_backup_commands
     add_backup_commands(sub)                    # backup, restore
@@ -311,9 +339,15 @@ def main(argv=None) -> int:
         print(f"fieldapp: {e.message}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except Exception as e:  # noqa: BLE001 - one line, never a traceback, for any store error
+        import sqlite3
         from .store import StoreError
         if isinstance(e, StoreError):
             print(f"fieldapp: {e.message}", file=sys.stderr)
+            return EXIT_BAD_INPUT
+        if isinstance(e, sqlite3.DatabaseError):
+            print(f"fieldapp: the log could not be read or written ({e}). If it is damaged, "
+                  "export what can be read and restore a backup (python -m fieldapp "
+                  "restore --data DIR FILE).", file=sys.stderr)
             return EXIT_BAD_INPUT
         raise
     except BrokenPipeError:

@@ -99,7 +99,16 @@ def backup(db_path, out) -> dict:
     if not out.parent.is_dir():
         raise InputError(f"The folder {out.parent} does not exist.", "output")
     part = out.with_name(out.name + ".part")
-    src = store.connect(db_path, upgrade=False)
+    state = store.inspect_log(db_path)          # quick_check before every backup
+    if state["state"] != "ok":
+        raise store.StoreError(
+            f"{state['problem']} A backup now would copy the damage, so none was made."
+            if state["state"] == "damaged" else state["problem"], "data")
+    try:
+        src = store.connect(db_path, upgrade=False)
+        src.execute("SELECT count(*) FROM sqlite_master").fetchone()
+    except sqlite3.OperationalError:            # a read-only folder: read it as such
+        src = store.connect_readonly(db_path)
     try:
         try:
             store.log_summary(src)

@@ -17,6 +17,9 @@ import csv
 import io
 import json
 import math
+import re
+import sqlite3
+import unicodedata
 from typing import IO, Iterator
 
 from . import __version__, store
@@ -31,7 +34,12 @@ COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", 
            "uuid", "visited_by", "recorded_at", "app_version", "flag_acks")
 NUMERIC = {"depth_cm", "value", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa",
            "ec25_dS_m", "ece_dS_m", "psi_s_MPa"}
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+#: Characters that make a spreadsheet read a cell as a formula (OWASP CSV
+#: injection guidance), with their full-width and small forms, which some
+#: spreadsheets fold to the ASCII ones.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r",
+                  "\uff1d", "\uff0b", "\uff0d", "\uff20",      # full width ＝＋－＠
+                  "\ufe66", "\ufe62", "\ufe63", "\ufe6b")      # small ﹦﹢﹣﹫
 
 
 def plain_number(x) -> str:
@@ -54,16 +62,39 @@ def plain_number(x) -> str:
 _FORMULA_FIRST = frozenset(_FORMULA_START)
 
 
+def _invisible(c: str) -> bool:
+    """A character that shows nothing before a formula sign: spaces, controls,
+    format characters (zero-width space, joiners, direction marks, BOM)."""
+    return c.isspace() or unicodedata.category(c) in ("Cc", "Cf", "Zs", "Zl", "Zp")
+
+
+def _formula_like(s: str) -> bool:
+    for c in s:                     # stops at the first visible character
+        if c in _FORMULA_FIRST:
+            return True
+        if not _invisible(c):
+            return False
+    return False
+
+
 def neutralize(text) -> str:
-    """Prefix text a spreadsheet would treat as a formula with an apostrophe."""
+    """Prefix with an apostrophe text a spreadsheet would treat as a formula
+    (also behind invisible leading characters), and text that starts with an
+    apostrophe itself, so that :func:`unneutralize` gives back exactly what
+    was typed: ``'=1+1`` exports as ``''=1+1`` and imports as ``'=1+1``."""
     if text is None:
         return ""
     s = str(text)
-    return "'" + s if s[:1] in _FORMULA_FIRST else s
+    return "'" + s if s[:1] == "'" or _formula_like(s) else s
 
 
 def unneutralize(text: str) -> str:
-    return text[1:] if text.startswith("'") and text[1:].startswith(_FORMULA_START) else text
+    """The inverse of :func:`neutralize` on every text it produced."""
+    if text.startswith("'"):
+        rest = text[1:]
+        if rest[:1] == "'" or _formula_like(rest):
+            return rest
+    return text
 
 
 def _acks_cell(acks: list[dict]) -> str:
@@ -85,29 +116,34 @@ def _yes_no(v) -> str:
     return "yes" if v else "no"
 
 
-def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500) -> Iterator[str]:
+def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
+                 report: dict | None = None) -> Iterator[str]:
     """Yield the CSV text piece by piece: BOM + header, then a few hundred rows
-    at a time. Each column's formatter is chosen once, not per cell."""
+    at a time. Each column's formatter is chosen once, not per cell. Rows are
+    read in keyset batches; on a damaged log every readable row comes out and
+    ``report["skipped"]`` counts the ids that could not be read."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")
     w.writerow(COLUMNS)
     yield BOM + buf.getvalue()
-    acked = store.acked_reading_ids(conn)
+    try:
+        acked = store.acked_reading_ids(conn)
+    except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
+        acked = set()
     formatters = [plain_number if c in NUMERIC else _yes_no if c == "compensated" else neutralize
                   for c in COLUMNS[:-1]]          # the last column, flag_acks, is built apart
     idx = None
     pending = 0
     buf.seek(0)
     buf.truncate()
-    for row in store.iter_readings(conn, site_id=site_id):
+    for row in store.iter_readings_keyset(conn, site_id=site_id, report=report):
         if idx is None:
             keys = row.keys()
             idx = [keys.index(c) for c in COLUMNS[:-1]]
             id_pos = keys.index("id")
         cells = [f(row[i]) for f, i in zip(formatters, idx)]
         rid = row[id_pos]
-        cells.append(neutralize(_acks_cell(store.acks_for_readings(conn, [rid])[rid]))
-                     if rid in acked else "")
+        cells.append(neutralize(_acks_cell(_acks_or_none(conn, rid))) if rid in acked else "")
         w.writerow(cells)
         pending += 1
         if pending >= rows_per_piece:
@@ -119,8 +155,16 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500) ->
         yield buf.getvalue()
 
 
-def export(conn, out: IO[str], site_id: int | None = None) -> None:
-    for piece in export_lines(conn, site_id):
+def _acks_or_none(conn, rid: int) -> list[dict]:
+    try:
+        return store.acks_for_readings(conn, [rid])[rid]
+    except sqlite3.DatabaseError:
+        return []
+
+
+def export(conn, out: IO[str], site_id: int | None = None,
+           report: dict | None = None) -> None:
+    for piece in export_lines(conn, site_id, report=report):
         out.write(piece)
 
 
@@ -128,20 +172,81 @@ class ImportError_(InputError):
     pass
 
 
+_CODE_RE = re.compile(r"^[a-z][a-z0-9_]{0,59}$")
+_VERSION_RE = re.compile(r"^[0-9A-Za-z.+_-]{1,40}$")
+#: Text cells the reading itself does not validate, with their longest length.
+_TEXT_MAX = {"void_reason": 2000, "ece_method": 200, "psi_s_method": 200}
+
+
 def _num(cell: str, line: int, col: str):
+    """A number cell, read by the API's own rule (ASCII digits, a decimal comma
+    only when unambiguous, no 1_000, nothing that underflows to 0)."""
     if cell == "":
         return None
+    from .records import FIELD_TEXT_MAX, check_number_text
+    from .science.convert import parse_number
+    if len(cell) > FIELD_TEXT_MAX:
+        raise ImportError_(f"line {line}: {col} is {len(cell)} characters long; that is "
+                           "not a number.", col)
     try:
-        x = float(cell)
+        check_number_text(cell, col)
+        return parse_number(cell, col)
+    except InputError as e:
+        raise ImportError_(f"line {line}: {col}: {e.message}", col) from None
+
+
+def _timestamp(cell: str, line: int, col: str) -> str | None:
+    """voided_at, recorded_at: an ISO 8601 time with its UTC offset, or empty."""
+    if cell == "":
+        return None
+    import datetime as dt
+    try:
+        t = dt.datetime.fromisoformat(cell.strip().replace("Z", "+00:00"))
     except ValueError:
-        raise ImportError_(f"line {line}: {col} {cell!r} is not a number.", col) from None
-    if not math.isfinite(x):
-        raise ImportError_(f"line {line}: {col} must be a finite number.", col)
-    return x
+        t = None
+    if t is None or t.tzinfo is None or not (1990 <= t.year <= 2200) or len(cell) > 40:
+        raise ImportError_(f"line {line}: {col} {cell[:40]!r} is not a time like "
+                           "2026-05-14T09:30:00+00:00.", col)
+    return t.isoformat(timespec="seconds")
+
+
+def _check_text_cells(r: dict, line: int) -> None:
+    for col, limit in _TEXT_MAX.items():
+        if len(r[col]) > limit:
+            raise ImportError_(f"line {line}: {col} is at most {limit} characters.", col)
+    codes = [c for c in r["flags"].split(";") if c] if r["flags"] else []
+    bad = [c for c in codes if not _CODE_RE.match(c)]
+    if bad:
+        raise ImportError_(f"line {line}: flags {bad[0][:40]!r} is not a flag code "
+                           "(codes look like unit_slip, joined by ';').", "flags")
+    r["flags"] = ";".join(codes)
+    if r["app_version"] and not _VERSION_RE.match(r["app_version"]):
+        raise ImportError_(f"line {line}: app_version {r['app_version'][:40]!r} is not a "
+                           "version number.", "app_version")
+    acks = _parse_acks(r["flag_acks"]) if r["flag_acks"] else []
+    if r["flag_acks"].strip() and not acks:
+        raise ImportError_(f"line {line}: flag_acks must be code=note pairs joined by ' | '.",
+                           "flag_acks")
+    for code, note in acks:
+        if code not in codes:
+            raise ImportError_(f"line {line}: flag_acks acknowledges {code[:40]!r}, which is "
+                               "not one of the reading's flags.", "flag_acks")
+        if len(note) > 2000:
+            raise ImportError_(f"line {line}: an acknowledgement note is at most 2000 "
+                               "characters.", "flag_acks")
+    if r["status"] == "void" and not " ".join(r["void_reason"].split()):
+        raise ImportError_(f"line {line}: a void reading needs its void_reason.",
+                           "void_reason")
+    if r["status"] != "void" and (r["void_reason"] or r["voided_at"]):
+        raise ImportError_(f"line {line}: void_reason and voided_at belong to void "
+                           "readings only.", "void_reason")
 
 
 def read_export(src: IO[str]) -> list[dict]:
-    """Parse and check a whole export file; raise ImportError_ on the first bad line."""
+    """Parse and check a whole export file; raise ImportError_ on the first bad line.
+    Every cell gets the API's validation (the reading's own fields are checked
+    again when it is built); the links between rows are checked later, once
+    every row is read, by :func:`import_rows`."""
     text = src.read()
     if text.startswith(BOM):
         text = text[1:]
@@ -176,7 +281,11 @@ def read_export(src: IO[str]) -> list[dict]:
             if r["compensated"] not in ("yes", "no"):
                 raise ImportError_(f"line {line}: compensated must be yes or no.", "file")
             if r["status"] not in ("current", "corrected", "void"):
-                raise ImportError_(f"line {line}: unknown status {r['status']!r}.", "file")
+                raise ImportError_(f"line {line}: unknown status {r['status'][:40]!r}.",
+                                   "file")
+            for c in ("voided_at", "recorded_at"):
+                r[c] = _timestamp(r[c], line, c)
+            _check_text_cells(r, line)
             r["_line"] = line
             rows.append(r)
     except csv.Error as e:
@@ -197,76 +306,201 @@ def _payload(r: dict) -> dict:
             "matric_MPa": r["matric_MPa"], "depth_cm": r["depth_cm"],
             "meter": r["meter"], "replicate_group": r["replicate_group"],
             "note": r["note"], "taken_at": r["taken_at"],
-            "visited_by": r["visited_by"]}
+            "visited_by": r["visited_by"], "supersedes": r["supersedes_uuid"] or None}
+
+
+def _site_key(name) -> str:
+    return " ".join(str(name or "").split()).casefold()
+
+
+def _refuse(msg: str, field: str = "file"):
+    raise ImportError_(msg + " Nothing was imported.", field)
+
+
+def plan_import(conn, rows: list[dict]) -> tuple[list[dict], list[dict], dict]:
+    """Check a whole file against itself and the log, before anything is written.
+
+    Returns (new rows in an order where every reading comes before its
+    correction, rows already in the log, what the log holds of each uuid the
+    file names). Links are resolved over the whole file, so the rows may come
+    in any order (a spreadsheet sort). Refused, naming the lines: a uuid twice
+    with different content, a uuid the log holds for a different reading
+    (the API's 409), a correction of itself, a circle of corrections, a
+    correction onto another site, two corrections of one reading, a
+    correction of a reading the log already has corrected or void, a
+    correction of a reading that is nowhere, and a row whose status says the
+    opposite of what the file shows."""
+    by_uuid: dict[str, dict] = {}
+    for r in rows:
+        if not isinstance(r["uuid"], str) or not r["uuid"].strip():
+            _refuse(f"line {r['_line']}: the uuid is missing.")
+        r["uuid"] = r["uuid"].strip()
+        r["supersedes_uuid"] = (r["supersedes_uuid"] or "").strip() or None
+        first = by_uuid.get(r["uuid"])
+        if first is not None:
+            same = all(first[c] == r[c] for c in COLUMNS if c not in ("status",))
+            if not same:
+                _refuse(f"lines {first['_line']} and {r['_line']} carry the same uuid "
+                        f"{r['uuid']} for different readings.")
+            r["_duplicate"] = True
+            continue
+        by_uuid[r["uuid"]] = r
+    unique = [r for r in rows if not r.get("_duplicate")]
+    named = set(by_uuid) | {r["supersedes_uuid"] for r in unique if r["supersedes_uuid"]}
+    stored = store.readings_brief(conn, named)
+    known, fresh = [], []
+    for r in unique:
+        s = stored.get(r["uuid"])
+        if s is None:
+            fresh.append(r)
+            continue
+        if (_site_key(s["site"]) != _site_key(r["site"]) or s["value"] != r["value"]
+                or s["unit"] != r["unit"].strip()
+                or (s["supersedes_uuid"] or None) != r["supersedes_uuid"]):
+            raise ImportError_(
+                f"line {r['_line']}: the log already holds uuid {r['uuid']} for a different "
+                f"reading ({s['site']}, {plain_number(s['value'])} {s['unit']}); the stored "
+                "one is kept. Nothing was imported.", "uuid")
+        known.append(r)
+    fresh_uuids = {r["uuid"] for r in fresh}
+    child_of: dict[str, dict] = {}      # target uuid -> the row that corrects it
+    for r in unique:
+        t = r["supersedes_uuid"]
+        if t is None:
+            continue
+        if t == r["uuid"]:
+            _refuse(f"line {r['_line']}: the reading {t} corrects itself.")
+        if t in child_of:
+            _refuse(f"lines {child_of[t]['_line']} and {r['_line']} both correct {t}; a "
+                    "reading has one correction (correct the newest version).")
+        child_of[t] = r
+    for r in fresh:
+        t = r["supersedes_uuid"]
+        if t is None:
+            continue
+        if t in by_uuid:
+            target = by_uuid[t]
+            where = f"line {target['_line']}"
+        elif t in stored:
+            target = stored[t]
+            where = "the log"
+            if target["status"] != "current":
+                _refuse(f"line {r['_line']} corrects {t}, which the log already has "
+                        f"{target['status']}; correct the newest version instead.")
+        else:
+            _refuse(f"line {r['_line']} corrects {t}, which is neither in the file nor in "
+                    "the log.")
+        if _site_key(target["site"]) != _site_key(r["site"]):
+            _refuse(f"line {r['_line']} corrects a reading of another site ({where}: "
+                    f"{target['site']!r}, this line: {r['site']!r}); a correction stays on "
+                    "the same site.")
+    # circles: every row has at most one target and one correction, so a walk
+    # from each new row either ends outside the new rows or comes back to it
+    depth: dict[str, int] = {}
+    for r in fresh:
+        path, u = [], r["uuid"]
+        while u in fresh_uuids and u not in depth:
+            if u in path:
+                lines = sorted(by_uuid[x]["_line"] for x in path[path.index(u):])
+                _refuse("lines " + ", ".join(map(str, lines)) + " correct one another in a "
+                        "circle; one of them must be the first reading.")
+            path.append(u)
+            u = by_uuid[u]["supersedes_uuid"]
+        base = depth.get(u, -1) if u in fresh_uuids else -1
+        for x in reversed(path):
+            base += 1
+            depth[x] = base
+    for r in fresh:
+        kid = child_of.get(r["uuid"])
+        if r["status"] == "corrected" and kid is None and \
+                not (r["uuid"] in stored and stored[r["uuid"]]["corrected_by_uuid"]):
+            _refuse(f"line {r['_line']} says corrected, but no line corrects it; the "
+                    "correction is missing from the file.")
+        if r["status"] != "corrected" and kid is not None:
+            _refuse(f"line {r['_line']} says {r['status']}, but line {kid['_line']} "
+                    "corrects it.")
+    order = sorted(fresh, key=lambda r: (depth[r["uuid"]], r["_line"]))
+    return order, known, stored
 
 
 def import_rows(conn, rows: list[dict]) -> dict:
     """Merge rows into the log in one transaction. Returns counts.
 
+    The whole file is checked first (:func:`plan_import`): links between rows
+    are resolved after every row is read, so any row order gives the same log.
     New rows are converted in chunks by the vectorized core (the result shown
     for each reading); the numbers computed where the reading was taken are
     kept as exported, so a merged log shows the same figures as its source."""
-    from .records import build_record
+    from .records import build_record, check_fields
     from .science.convert import RowInputError, convert_readings
-    added = skipped = voids = 0
+    added = voids = 0
     with store.transaction(conn):
-        for k in range(0, len(rows), IMPORT_CHUNK):
-            chunk = rows[k:k + IMPORT_CHUNK]
-            known = store.existing_uuids(conn, [r["uuid"] for r in chunk])
-            fresh = [r for r in chunk if r["uuid"] not in known]
-            payloads = [_payload(r) for r in fresh]
+        order, known, _ = plan_import(conn, rows)
+        skipped = len(rows) - len(order)
+        for k in range(0, len(order), IMPORT_CHUNK):
+            chunk = order[k:k + IMPORT_CHUNK]
+            payloads = [_payload(r) for r in chunk]
+            for r, p in zip(chunk, payloads):
+                try:
+                    check_fields(p)
+                except InputError as e:
+                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was "
+                                       "imported.", e.field) from None
             try:
                 results = convert_readings(payloads)
             except RowInputError as e:
-                raise ImportError_(f"line {fresh[e.index]['_line']}: {e.message} Nothing was "
-                                   "imported.", e.field) from None
-            result_of = {r["uuid"]: (p, res) for r, p, res in zip(fresh, payloads, results)}
+                raise ImportError_(f"line {chunk[e.index]['_line']}: {e.message} Nothing "
+                                   "was imported.", e.field) from None
             recs = []
-            for r in chunk:
-                if r["uuid"] in result_of and r["uuid"] not in known:
-                    payload, result = result_of[r["uuid"]]
-                    result["imported"] = True
-                    try:
-                        rec = build_record(payload, result=result)
-                    except (InputError, store.StoreError) as e:
-                        raise ImportError_(f"line {r['_line']}: {e.message} Nothing was "
-                                           "imported.", getattr(e, "field", None)) from None
-                    for c in ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
-                              "psi_s_method", "recorded_at"):
-                        rec[c] = r[c] if r[c] != "" else None
-                    rec["flags"] = r["flags"]
-                    rec["app_version"] = r["app_version"] or __version__
-                    rec["supersedes_uuid"] = r["supersedes_uuid"] or None
-                    recs.append(rec)
-                    known.add(r["uuid"])
-                    added += 1
-                else:
-                    skipped += 1
-            wanted = {rec["supersedes_uuid"] for rec in recs if rec["supersedes_uuid"]}
-            missing = wanted - known - store.existing_uuids(conn, wanted - known)
-            if missing:
-                raise ImportError_(f"The file corrects readings that are not in it nor in the "
-                                   f"log ({', '.join(sorted(missing)[:3])}). Nothing was "
-                                   "imported.", "file")
+            for r, payload, result in zip(chunk, payloads, results):
+                result["imported"] = True
+                try:
+                    rec = build_record(payload, result=result)
+                except (InputError, store.StoreError) as e:
+                    raise ImportError_(f"line {r['_line']}: {e.message} Nothing was "
+                                       "imported.", getattr(e, "field", None)) from None
+                for c in ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
+                          "psi_s_method", "recorded_at"):
+                    rec[c] = r[c] if r[c] != "" else None
+                rec["flags"] = r["flags"]
+                rec["app_version"] = r["app_version"] or __version__
+                rec["supersedes_uuid"] = r["supersedes_uuid"]
+                recs.append(rec)
             try:
                 store.insert_readings_bulk(conn, recs)
             except store.StoreError as e:
                 raise ImportError_(f"{e.message} Nothing was imported.", e.field) from None
-            for r in chunk:
-                if r["flag_acks"] or r["status"] == "void":
-                    row = store.get_reading(conn, r["uuid"])
-                    if r["flag_acks"]:
-                        have = {a["code"] for a in
-                                store.acks_for_readings(conn, [row["id"]])[row["id"]]}
-                        for code, note in _parse_acks(r["flag_acks"]):
-                            if code not in have:
-                                store.insert_ack(conn, row["id"], code, note)
-                    if r["status"] == "void" and row["status"] == "current":
-                        store.insert_void(conn, row["id"], r["void_reason"] or "void",
-                                          r["voided_at"] or None)
-                        voids += 1
+            added += len(recs)
+        voids = _merge_acks_and_voids(conn, order + known)
     return {"added": added, "skipped": skipped, "voided": voids}
 
 
+def _merge_acks_and_voids(conn, rows: list[dict]) -> int:
+    """Acknowledgements and voids the file carries that the log lacks."""
+    wanted = [r for r in rows if r["flag_acks"] or r["status"] == "void"]
+    brief = store.readings_brief(conn, [r["uuid"] for r in wanted])
+    acks = store.acks_for_readings(conn, [brief[r["uuid"]]["id"] for r in wanted])
+    voids = 0
+    for r in wanted:
+        b = brief[r["uuid"]]
+        if r["flag_acks"]:
+            have = {a["code"] for a in acks[b["id"]]}
+            for code, note in _parse_acks(r["flag_acks"]):
+                if code not in have:
+                    store.insert_ack(conn, b["id"], code, note)
+                    have.add(code)
+        if r["status"] == "void" and b["status"] == "current":
+            store.insert_void(conn, b["id"], " ".join(r["void_reason"].split()),
+                              r["voided_at"] or None)
+            voids += 1
+    return voids
+
+
 def import_csv(conn, src: IO[str]) -> dict:
-    return import_rows(conn, read_export(src))
+    try:
+        rows = read_export(src)
+    except ImportError_ as e:
+        if "Nothing was imported" in e.message:
+            raise
+        raise ImportError_(e.message + " Nothing was imported.", e.field) from None
+    return import_rows(conn, rows)

@@ -130,17 +130,28 @@ def validate_meter(body: dict) -> dict:
     unit_list = body.get("units") or []
     if isinstance(unit_list, str):
         unit_list = [u for u in unit_list.replace(",", ";").split(";") if u.strip()]
+    if not isinstance(unit_list, list) or len(unit_list) > 20 or \
+            not all(isinstance(u, str) for u in unit_list):
+        raise InputError("units is a list of the units the meter displays, e.g. "
+                         '["dS/m", "µS/cm"].', "units")
     canon = []
     for u in unit_list:
-        canon.append(units.parse_unit(str(u)).canonical)
+        canon.append(units.parse_unit(u).canonical)
+    range_list = body.get("ranges") or []
+    if not isinstance(range_list, list) or len(range_list) > 20:
+        raise InputError("ranges is a list of at most 20 ranges, each with min, max, "
+                         "resolution and unit.", "ranges")
     ranges = []
-    for k, r in enumerate(body.get("ranges") or []):
+    for k, r in enumerate(range_list):
         if not isinstance(r, dict):
             raise InputError("Each range needs min, max, resolution and unit.", "ranges")
         lo = _num(r, "min", "the range minimum", True)
         hi = _num(r, "max", "the range maximum", True)
         res = _num(r, "resolution", "the display step")
-        unit = units.parse_unit(str(r.get("unit") or (canon[0] if canon else ""))).canonical
+        unit = r.get("unit") or (canon[0] if canon else "")
+        if not isinstance(unit, str):
+            raise InputError(f"Range {k + 1}: the unit must be text, e.g. dS/m.", "ranges")
+        unit = units.parse_unit(unit).canonical
         if lo < 0 or hi <= lo:
             raise InputError(f"Range {k + 1}: the minimum must be below the maximum.", "ranges")
         if res is not None and not (0 < res < hi):

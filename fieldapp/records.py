@@ -19,6 +19,65 @@ NOTE_MAX = 2000
 DEFAULT_MAX_AGE_DAYS = 7.0   # see meters.DEFAULT_MAX_AGE_DAYS
 SHORT_TEXT_MAX = 120
 _UUID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.:-]{7,63}$")
+#: Fields that hold a word from a list (unit, kind, texture...): text only.
+WORD_FIELDS = ("unit", "sample", "texture", "crop", "ece_method", "psi_s_route", "salt_type")
+#: Free text a client may also send as a number (a replicate group "1", a
+#: site "3"): text or a number, never a list or an object.
+TEXT_FIELDS = ("site", "uuid", "supersedes", "note", "meter", "replicate_group",
+               "visited_by", "taken_at")
+#: Numbers, typed or sent as JSON numbers.
+NUMBER_FIELDS = ("value", "temp_c", "sp", "depth_cm", "tds_factor", "theta_g_pct",
+                 "matric_MPa", "ratio")
+#: No field but the note is longer than this; checked before any parsing, so
+#: no parser ever sees a megabyte of text.
+FIELD_TEXT_MAX = 200
+
+
+def check_number_text(text: str, field: str) -> None:
+    """A typed number so small that it would be stored as 0 ("1e-400") is
+    refused rather than silently zeroed."""
+    mantissa = text.strip().lower().split("e", 1)[0]
+    if "e" in text.lower() and any(c in "123456789" for c in mantissa):
+        try:
+            x = float(text.strip().replace(",", "."))
+        except ValueError:
+            return                   # parse_number gives the message
+        if x == 0.0:
+            raise InputError(f"{text.strip()!r} is too small to store; it would become 0.",
+                             field)
+
+
+def check_fields(payload) -> dict:
+    """Refuse a field of the wrong JSON type or of absurd length, before any
+    parsing: a list, an object or true where text or a number belongs is a
+    400 naming the field, never a crash further down."""
+    if not isinstance(payload, dict):
+        raise InputError("Send the reading as a JSON object.", "body")
+    for key in WORD_FIELDS:
+        v = payload.get(key)
+        if v is not None and not isinstance(v, str):
+            raise InputError(f"{key} must be text, for example "
+                             f"{'dS/m' if key == 'unit' else 'as the form offers it'}.", key)
+    for key in TEXT_FIELDS:
+        v = payload.get(key)
+        if v is not None and (isinstance(v, (bool, list, dict))
+                              or not isinstance(v, (str, int, float))):
+            raise InputError(f"{key} must be text.", key)
+    for key in NUMBER_FIELDS:
+        v = payload.get(key)
+        if isinstance(v, (list, dict)):
+            raise InputError(f"{key} must be a number.", key)
+        if isinstance(v, str) and key != "ratio" and len(v) <= FIELD_TEXT_MAX:
+            check_number_text(v, key)
+    v = payload.get("compensated")
+    if isinstance(v, (list, dict)):
+        raise InputError("compensated must be true or false.", "compensated")
+    for key, v in payload.items():
+        if isinstance(v, str) and len(v) > (NOTE_MAX if key == "note" else FIELD_TEXT_MAX):
+            limit = NOTE_MAX if key == "note" else FIELD_TEXT_MAX
+            raise InputError(f"{key} is at most {limit} characters.", key if isinstance(
+                key, str) and len(key) <= 40 else "body")
+    return payload
 
 
 def parse_taken_at(text) -> str:
@@ -81,6 +140,7 @@ def preview(payload: dict, site=None, conn=None,
     converts but a save would refuse it (no site yet, a depth that is not a
     number, a note too long), ``refused`` says which field and why; a reading
     that cannot be converted at all raises InputError as a save does."""
+    check_fields(payload)
     result = convert_reading(with_site_defaults(payload, site),
                              context=_context(conn, payload, site, max_age_days))
     try:
@@ -109,8 +169,7 @@ def build_record(payload: dict, site=None, conn=None,
     """Validate a submitted reading and compute everything; a dict for
     store.insert_reading. Raises InputError or StoreError naming the field.
     Given a connection the checks see the meter, calibration and history."""
-    if not isinstance(payload, dict):
-        raise InputError("Send the reading as a JSON object.", "body")
+    check_fields(payload)
     rid = str(payload.get("uuid") or "").strip() or str(uuidlib.uuid4())
     if not _UUID_RE.match(rid):
         raise InputError("uuid must be 8 to 64 letters, digits or -_.:", "uuid")
@@ -158,13 +217,14 @@ def build_record(payload: dict, site=None, conn=None,
 
 def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS):
     """Validate, convert and store; returns (row, created)."""
+    check_fields(payload)
     site = None
-    if isinstance(payload, dict) and payload.get("site"):
+    if payload.get("site"):
         try:
             site = store.get_site(conn, store.clean_site_name(payload["site"]))
         except store.StoreError:
             site = None
-    if isinstance(payload, dict) and payload.get("uuid"):
+    if payload.get("uuid"):
         existing = store.get_reading(conn, str(payload["uuid"]).strip())
         if existing is not None:   # a resend: answer before recomputing anything
             rec = {"uuid": existing["uuid"], "site": payload.get("site"),

@@ -47,7 +47,7 @@ def _migrations() -> list[tuple[int, str]]:
     return [(int(p.name.split("_", 1)[0]), p.read_text(encoding="utf-8")) for p in files]
 
 
-def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
+def connect(path: str | Path, upgrade: bool = True, check: bool = True) -> sqlite3.Connection:
     """Open (creating if needed) the database and bring its schema up to date.
 
     ``upgrade=False`` skips the checks and migrations (per-request connections
@@ -57,6 +57,10 @@ def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
     program, raises StoreError and is left untouched.
     """
     path = Path(path)
+    if upgrade and check and path.exists():
+        state = inspect_log(path)            # an empty or damaged log is never written
+        if state["state"] != "ok":
+            raise StoreError(state["problem"], status=503)
     existed = path.exists() and path.stat().st_size > 0
     conn = sqlite3.connect(path, timeout=30, isolation_level=None,
                            check_same_thread=False)
@@ -80,11 +84,17 @@ def connect(path: str | Path, upgrade: bool = True) -> sqlite3.Connection:
     except sqlite3.OperationalError as e:
         conn.close()
         msg = str(e).lower()
-        if "readonly" in msg or "read-only" in msg or "unable to open" in msg or \
-                not os.access(path.parent, os.W_OK):
-            raise StoreError(f"fieldapp cannot write to {path.parent} ({e}): the folder or "
-                             "the log file is read-only or the disk is full. Choose another "
-                             "--data folder or free the disk.", status=500) from None
+        why = unwritable_reason(path.parent, msg)
+        if why:
+            err = StoreError(f"fieldapp cannot write to the log: {why}. The log itself is "
+                             "not damaged. Free some space or make the folder writable, or "
+                             "choose another --data folder.", status=503)
+            err.unwritable = why
+            raise err from None
+        if "unable to open" in msg:
+            raise StoreError(f"fieldapp cannot open {path} ({e}): check the folder's "
+                             "permissions, or choose another --data folder.",
+                             status=503) from None
         raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
                          "it is; restore a backup or choose another --data folder.",
                          status=500) from None
@@ -840,3 +850,204 @@ def log_summary(conn) -> dict:
         "sites": conn.execute("SELECT COUNT(*) FROM sites").fetchone()[0],
         "newest": conn.execute("SELECT MAX(recorded_at) FROM readings").fetchone()[0],
     }
+
+
+def readings_brief(conn, uuids) -> dict[str, dict]:
+    """What an import compares for readings already in the log, by uuid: site
+    name, value, unit, status, what it corrects and what corrected it. One
+    query per 500 uuids instead of one per reading."""
+    uuids = list(uuids)
+    out: dict[str, dict] = {}
+    for k in range(0, len(uuids), 500):
+        part = uuids[k:k + 500]
+        for r in conn.execute(
+                "SELECT r.uuid, s.name AS site, r.value, r.unit, st.status, "
+                "st.corrected_by_uuid, p.uuid AS supersedes_uuid, r.id "
+                "FROM readings r JOIN sites s ON s.id = r.site_id "
+                "JOIN reading_status st ON st.id = r.id "
+                "LEFT JOIN readings p ON p.id = r.supersedes_id "
+                f"WHERE r.uuid IN ({','.join('?' * len(part))})", part):
+            out[r["uuid"]] = dict(r)
+    return out
+
+
+# ---- damaged, empty or unwritable logs (read-only rescue)
+
+SQLITE_HEADER = b"SQLite format 3\x00"
+
+
+def _ro_uri(path: Path, immutable: bool = False) -> str:
+    from urllib.parse import quote
+    return f"file:{quote(str(Path(path).resolve()))}?" + ("immutable=1" if immutable
+                                                          else "mode=ro")
+
+
+def connect_readonly(path: str | Path) -> sqlite3.Connection:
+    """Open the log so that nothing can be written through this connection
+    (a damaged log, a read-only folder, a full disk). ``mode=ro`` first; in a
+    read-only folder SQLite cannot make its shared-memory file, and then the
+    file is opened as immutable, which is exact as long as no write-ahead log
+    holds unmerged pages (checked: otherwise the error says so)."""
+    path = Path(path)
+    try:
+        conn = sqlite3.connect(_ro_uri(path), uri=True, timeout=30, isolation_level=None,
+                               check_same_thread=False)
+        conn.execute("SELECT count(*) FROM sqlite_master").fetchone()
+    except sqlite3.OperationalError:
+        wal = path.with_name(path.name + "-wal")
+        if wal.exists() and wal.stat().st_size > 0:
+            raise
+        conn = sqlite3.connect(_ro_uri(path, immutable=True), uri=True, timeout=30,
+                               isolation_level=None, check_same_thread=False)
+    conn.row_factory = sqlite3.Row
+    conn.execute("PRAGMA query_only = ON")
+    return conn
+
+
+def _restore_hint(path: Path) -> str:
+    return (f"Restore a backup with: python -m fieldapp restore --data {path.parent} "
+            "BACKUP_FILE (stop the server first); the damaged file is kept beside it.")
+
+
+def inspect_log(path: str | Path) -> dict:
+    """What state the log file is in, without writing anything to it.
+
+    Returns {"state": ..., "problem": text or None}; state is "new" (no file
+    yet), "ok", "damaged" (opens, but SQLite's quick_check finds damage: the
+    server may start read-only for rescue), or "refused" (an empty file, not
+    a database, another program's or a newer fieldapp's database: nothing can
+    be rescued through fieldapp and nothing is touched)."""
+    path = Path(path)
+    if not path.exists():
+        return {"state": "new", "problem": None}
+    size = path.stat().st_size
+    wal = path.with_name(path.name + "-wal")
+    if size == 0:
+        extra = (f" A write-ahead file {wal.name} of {wal.stat().st_size} bytes lies beside "
+                 "it: keep both files." if wal.exists() and wal.stat().st_size else "")
+        return {"state": "refused", "problem": (
+            f"{path} is empty (0 bytes): the log was cut short or never written. fieldapp "
+            "will not start a new log over it." + extra + " " + _restore_hint(path)
+            + " If this folder never held a log, delete the empty file.")}
+    try:
+        with open(path, "rb") as f:
+            head = f.read(16)
+    except OSError as e:
+        return {"state": "refused", "problem": f"{path} cannot be read ({e.strerror})."}
+    if head != SQLITE_HEADER:
+        return {"state": "refused", "problem": (
+            f"{path} is not a readable fieldapp log (not a SQLite database, or its first "
+            "page is damaged). It was left as it is. " + _restore_hint(path))}
+    try:
+        conn = connect_readonly(path)
+    except sqlite3.Error as e:
+        return {"state": "refused", "problem": f"{path} cannot be opened ({e}). "
+                + _restore_hint(path)}
+    try:
+        tables = {r[0] for r in conn.execute(
+            "SELECT name FROM sqlite_master WHERE type='table'")}
+        if tables and "readings" not in tables:
+            return {"state": "refused", "problem": (
+                f"{path} is a database of another program; fieldapp will not touch it. "
+                "Choose another --data folder.")}
+        version = conn.execute("PRAGMA user_version").fetchone()[0]
+        if version > max(v for v, _ in _migrations()):
+            return {"state": "refused", "problem": (
+                f"this database was written by a newer fieldapp (schema {version}); "
+                "update fieldapp.")}
+        problems = integrity_problems(conn, quick=True)
+    except sqlite3.DatabaseError as e:
+        problems = [str(e)]
+    finally:
+        conn.close()
+    if problems:
+        return {"state": "damaged", "problem": (
+            f"The log {path} is damaged (SQLite quick_check: {problems[0][:200]}). fieldapp "
+            "opened it read-only and writes nothing to it: export what can still be read "
+            "(the Export link, or python -m fieldapp export), then " + _restore_hint(path)[0]
+            .lower() + _restore_hint(path)[1:])}
+    return {"state": "ok", "problem": None}
+
+
+def unwritable_reason(folder: str | Path, error: str = "") -> str | None:
+    """Why the log's folder cannot take a write now, in words, or None."""
+    import shutil
+    folder = Path(folder)
+    if "readonly" in error or "read-only" in error or not os.access(folder, os.W_OK):
+        return (f"the folder {folder} is read-only (a write-protected card or a file system "
+                "mounted read-only)")
+    try:
+        free = shutil.disk_usage(folder).free
+    except OSError:
+        free = None
+    if "full" in error or (free is not None and free < 1 << 20):
+        return f"the disk holding {folder} is full ({(free or 0) // 1024} KiB free)"
+    return None
+
+
+def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
+                         skip_damaged: bool = True, report: dict | None = None
+                         ) -> Iterator[sqlite3.Row]:
+    """Every reading version in id order, fetched in keyset batches (``id > last``),
+    each batch its own short read: a long export never holds one read open.
+
+    With ``skip_damaged`` a batch that SQLite cannot read (a damaged page) is
+    stepped over one id at a time, so an export of a damaged log rescues every
+    row that can still be read; ``report["skipped"]`` counts the ids passed over."""
+    where = " AND r.site_id = ?" if site_id is not None else ""
+    sql = _READING_SELECT + " WHERE r.id > ?" + where + " ORDER BY r.id LIMIT ?"
+    one = _READING_SELECT + " WHERE r.id = ?" + where
+    last, skipped, top = 0, 0, None
+    while True:
+        args = [last] + ([site_id] if site_id is not None else []) + [batch]
+        try:
+            rows = conn.execute(sql, args).fetchall()
+        except sqlite3.DatabaseError:
+            if not skip_damaged:
+                raise
+            if top is None:
+                try:
+                    top = conn.execute("SELECT max(id) FROM readings").fetchone()[0] or 0
+                except sqlite3.DatabaseError:
+                    top = last + 1_000_000
+            rows = []
+            while not rows and last < top:
+                last += 1
+                try:
+                    rows = conn.execute(one, [last] + ([site_id] if site_id is not None
+                                                       else [])).fetchall()
+                except sqlite3.DatabaseError:
+                    skipped += 1
+            if report is not None:
+                report["skipped"] = skipped
+            if not rows:
+                return
+        if not rows:
+            return
+        yield from rows
+        last = rows[-1]["id"]
+
+
+# ---- pairing limiter and bounds (schema 010)
+
+def pairing_failure_counts(conn, address: str, since: float) -> dict:
+    """Wrong codes since ``since`` (epoch seconds): from this address and
+    overall, with the oldest time of each (for Retry-After)."""
+    a = conn.execute("SELECT COUNT(*), MIN(failed_at) FROM pairing_failures "
+                     "WHERE address = ? AND failed_at > ?", (address, since)).fetchone()
+    t = conn.execute("SELECT COUNT(*), MIN(failed_at) FROM pairing_failures "
+                     "WHERE failed_at > ?", (since,)).fetchone()
+    return {"address": a[0], "address_oldest": a[1], "overall": t[0], "overall_oldest": t[1]}
+
+
+def add_pairing_failure(conn, address: str, at: float, prune_before: float) -> None:
+    with transaction(conn):
+        conn.execute("DELETE FROM pairing_failures WHERE failed_at <= ?", (prune_before,))
+        conn.execute("INSERT INTO pairing_failures (address, failed_at) VALUES (?, ?)",
+                     (address, at))
+
+
+def devices_paired_with(conn, code_id: int) -> int:
+    """Devices a code has paired (unpaired ones included: the bound is on the code)."""
+    return conn.execute("SELECT COUNT(*) FROM paired_devices WHERE code_id = ?",
+                        (code_id,)).fetchone()[0]

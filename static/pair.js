@@ -16,9 +16,16 @@
     });
   }
 
+  // Where to go once paired: an address of this server only. Parsed as a URL
+  // the way the browser will follow it (tabs and line breaks dropped, "\\"
+  // read as "/"), never judged by its characters.
   function safeNext(p) {
-    return typeof p === "string" && p.charAt(0) === "/" && p.charAt(1) !== "/" &&
-      p.charAt(1) !== "\\" ? p : "/";
+    var here = window.location.origin;
+    try {
+      var u = new URL(typeof p === "string" && p ? p : "/", here);
+      if (u.origin === here && (u.protocol === "http:" || u.protocol === "https:")) return u.href;
+    } catch (e) { /* not an address: go home */ }
+    return here + "/";
   }
 
   var form = $("pair-form");

@@ -139,3 +139,47 @@ def test_import_with_one_bad_row_imports_nothing(client, db, tmp_path):
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 0
     assert conn.execute("SELECT COUNT(*) FROM sites").fetchone()[0] == 0
     conn.close()
+
+
+# ---- formula prefixing: every sign a spreadsheet reads, also behind invisible characters
+
+from hypothesis import given, settings, strategies as st   # noqa: E402
+
+FORMULA_SIGNS = ["=", "+", "-", "@", "\t", "\r",
+                 "\uff1d", "\uff0b", "\uff0d", "\uff20", "\ufe66"]   # ＝＋－＠ ﹦
+INVISIBLE = ["\u200b", "\u200c", "\u200d", "\u2060", "\ufeff", "\u200e", "\u202e", " ",
+             "\u00a0", "\u3000", "\x00", "\n"]
+
+
+@pytest.mark.parametrize("sign", FORMULA_SIGNS)
+def test_full_width_small_and_hidden_formula_signs_are_prefixed(sign):
+    # OWASP CSV injection guidance names = + - @ tab CR (from memory); the
+    # full-width and small forms are folded to them by some spreadsheets.
+    assert csvio.neutralize(sign + "1+1") == "'" + sign + "1+1"
+    for inv in INVISIBLE:
+        s = inv + inv + sign + "HYPERLINK(1)"
+        assert csvio.neutralize(s) == "'" + s
+    assert csvio.neutralize("Bench 4 " + sign) == "Bench 4 " + sign   # only at the start
+
+
+@settings(max_examples=300, deadline=None, derandomize=True)
+@given(st.text(alphabet=st.sampled_from(FORMULA_SIGNS + INVISIBLE + ["'", "a", "1", " "]),
+               max_size=8) | st.text(max_size=12))
+def test_neutralize_then_unneutralize_gives_back_what_was_typed(s):
+    out = csvio.neutralize(s)
+    assert csvio.unneutralize(out) == s
+    if out == s:        # left alone: nothing a spreadsheet would run
+        assert not s.startswith("'") and not any(
+            c in FORMULA_SIGNS for c in s.lstrip("".join(INVISIBLE))[:1])
+
+
+def test_a_note_typed_with_an_apostrophe_survives_export_and_import(client, tmp_path):
+    a = add(client, value="2.0", note="'=1+1")
+    b = add(client, value="2.1", note="'plain")
+    text = export_text(client)
+    other = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "other")})
+    conn = store.connect(other.config["DATABASE"])
+    csvio.import_csv(conn, io.StringIO(text))
+    assert store.get_reading(conn, a["uuid"])["note"] == "'=1+1"
+    assert store.get_reading(conn, b["uuid"])["note"] == "'plain"
+    conn.close()

@@ -42,7 +42,10 @@ def test_parse_ratio_good(text, n):
 
 
 @pytest.mark.parametrize("text", ["abc", "0", "1:0", "0:5", "", None, "-5", "1:5000",
-                                  float("nan"), float("inf"), True, "1:2:3", [1, 5]])
+                                  float("nan"), float("inf"), True, "1:2:3", [1, 5],
+                                  "1::5", "1:5.", "1:/5", "1 to 5 to 6", "1:1e1", "1:1_0",
+                                  "\u0661:\u0665", "\uff11:\uff15", "1:" + "1" * 16000 + "x",
+                                  "1" * 16000, "1:2,,5", "to", ":"])
 def test_parse_ratio_bad(text):
     with pytest.raises(InputError) as e:
         ex.parse_ratio(text)

@@ -318,3 +318,65 @@ def test_damaged_exports_import_whole_or_not_at_all(tmp_path_factory, export_tex
         assert n == (len([x for x in lines[1:] if x.strip()]) if ok else 0)
     finally:
         conn.close()
+
+
+# ------------------------------------------------------------ wrong JSON types
+
+WRONG_TYPES = [5, 1.5, True, -1, 10 ** 30, [], ["dS/m"], [[1]], {}, {"a": 1}, [{"a": 1}]]
+TYPED_FIELDS = sorted(set(FIELDS) | {"ece_method", "psi_s_route", "supersedes",
+                                     "replicate_group", "visited_by", "preset", "atc",
+                                     "accuracy_pct", "ref_temp_c", "atc_coeff_pct",
+                                     "atc_min_c", "atc_max_c", "checked_at",
+                                     "standard_uS_cm", "uuid"})
+BASES = [BASE, {**BASE, "sample": "extract", "ratio": "1:5", "texture": "loam",
+                "crop": "barley"},
+         {"name": "Meter X", "units": ["dS/m"],
+          "ranges": [{"min": 0, "max": 20, "unit": "dS/m", "resolution": 0.01}]},
+         {"crop": "barley", "measure": "ece", "lo_dS_m": 1, "hi_dS_m": 4}]
+
+
+@pytest.mark.parametrize("field", TYPED_FIELDS)
+def test_a_wrong_json_type_in_any_field_is_never_a_500(hostile_app, field):
+    """A number, true, a list or an object where text (or a number) belongs, in
+    every field of every endpoint: a 4xx with a JSON message, or accepted;
+    never a 500 (issue: 841 of 55,000 such bodies answered 500)."""
+    c = hostile_app.test_client()
+    answered = 0
+    for method, path in endpoints(hostile_app):
+        for base in BASES:
+            for wrong in WRONG_TYPES:
+                r = c.open(path, method=method, data=json.dumps({**base, field: wrong}),
+                           content_type="application/json")
+                assert r.status_code != 500, (method, path, field, wrong,
+                                              r.get_data(as_text=True)[:200])
+                if r.status_code >= 400:
+                    body = r.get_json(silent=True)
+                    assert isinstance(body, dict) and body.get("error"), (path, field, wrong)
+                answered += 1
+    assert answered >= 11 * 4 * 10
+
+
+@SETTINGS
+@given(data=st.data())
+def test_hypothesis_wrong_types_in_reading_fields(hostile_app, data):
+    c = hostile_app.test_client()
+    path = data.draw(st.sampled_from(["/api/preview", "/api/readings",
+                                      f"/api/readings/{UUID}/correct", "/api/meters",
+                                      "/api/sites", "/api/calibrations"]), label="path")
+    body = data.draw(st.fixed_dictionaries({}, optional={k: JSON_ANY for k in TYPED_FIELDS}),
+                     label="fields")
+    before = snapshot(hostile_app)
+    r = c.post(path, data=json.dumps({**BASE, **body}), content_type="application/json")
+    if r.status_code >= 400:
+        check_answer(r, before, hostile_app)
+    assert r.status_code != 500
+
+
+def test_a_megabyte_field_is_refused_before_parsing(hostile_app):
+    c = hostile_app.test_client()
+    for field in ("texture", "crop", "unit", "ratio", "value", "sample", "site", "meter"):
+        before = snapshot(hostile_app)
+        r = c.post("/api/readings", json={**BASE, field: "1," * 400000 + "x"})
+        assert r.status_code == 400 and r.get_json()["field"] == field
+        assert "at most" in r.get_json()["error"]
+        assert snapshot(hostile_app) == before

@@ -112,13 +112,45 @@ SAMPLE_KINDS: dict[str, SampleKind] = {k.key: k for k in (
 # --------------------------------------------------------------------------
 
 MAX_RATIO_N = 1000.0
-_RATIO_RE = re.compile(r"^\s*([0-9]*[.,]?[0-9]+)\s*(?:[:/∶]|to)\s*([0-9]*[.,]?[0-9]+)\s*$",
-                       re.IGNORECASE)
-_NUM_RE = re.compile(r"^\s*([0-9]*[.,]?[0-9]+)\s*$")
+#: Longest ratio text read at all: "1 : 2.5" is 7 characters; anything much
+#: longer is not a ratio and is refused before it is scanned.
+RATIO_TEXT_MAX = 40
+_DIGITS = frozenset("0123456789")      # ASCII only: other scripts' digits are refused
+_RATIO_SEPARATORS = (":", "/", "\u2236")
 
 
-def _to_float(s: str) -> float:
-    return float(s.replace(",", "."))
+def _decimal(part: str) -> float | None:
+    """'2.5', '2,5', '.5' or '5' -> float; anything else (including '5.',
+    '1e3', '1_0' and non-ASCII digits) -> None. One pass over the text,
+    no regular expression: linear time whatever is typed."""
+    if not part:
+        return None
+    sep = -1
+    for i, c in enumerate(part):
+        if c in _DIGITS:
+            continue
+        if c in ".," and sep < 0:
+            sep = i
+            continue
+        return None
+    if sep == len(part) - 1:
+        return None
+    return float(part.replace(",", ".") if sep >= 0 else part)
+
+
+def _ratio_parts(s: str) -> tuple[str, str] | None:
+    """Split 'a:b', 'a/b', 'a∶b' or 'a to b' at its one separator."""
+    found = [(i, len(c)) for c in _RATIO_SEPARATORS for i in [s.find(c)] if i >= 0]
+    low = s.lower()
+    if "to" in low:
+        found.append((low.find("to"), 2))
+    if len(found) != 1:
+        return None
+    i, n = found[0]
+    a, b = s[:i], s[i + n:]
+    if any(c in b for c in _RATIO_SEPARATORS) or "to" in b.lower():
+        return None
+    return a.strip(), b.strip()
 
 
 def parse_ratio(text_or_number) -> float:
@@ -151,9 +183,14 @@ def parse_ratio(text_or_number) -> float:
         n = float(text_or_number)
     elif isinstance(text_or_number, str):
         s = text_or_number.strip()
-        m = _RATIO_RE.match(s)
-        if m:
-            a, b = _to_float(m.group(1)), _to_float(m.group(2))
+        if len(s) > RATIO_TEXT_MAX:
+            raise InputError(f"That ratio is {len(s)} characters long; a ratio is short. "
+                             + hint, "ratio")
+        parts = _ratio_parts(s)
+        if parts is not None:
+            a, b = _decimal(parts[0]), _decimal(parts[1])
+            if a is None or b is None:
+                raise InputError(f"{s!r} is not a ratio. " + hint, "ratio")
             if a <= 0 or b <= 0:
                 raise InputError(f"{s!r} has a zero part. " + hint, "ratio")
             if a > b:
@@ -163,10 +200,9 @@ def parse_ratio(text_or_number) -> float:
                     f"swapped: type 1:{swapped:g} (soil first, then water).", "ratio")
             n = b / a
         else:
-            m = _NUM_RE.match(s)
-            if not m:
+            n = _decimal(s)
+            if n is None:
                 raise InputError(f"{s!r} is not a ratio. " + hint, "ratio")
-            n = _to_float(m.group(1))
     else:
         raise InputError("The dilution ratio must be text like 1:5 or a number. " + hint,
                          "ratio")

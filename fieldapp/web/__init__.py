@@ -12,10 +12,36 @@ from ..science import InputError
 
 
 def get_db() -> sqlite3.Connection:
-    """The request's connection, opened on first use and closed at teardown."""
+    """The request's connection, opened on first use and closed at teardown.
+
+    A log served read-only (damaged, or found unwritable at start) gets a
+    connection that cannot write. A reading request (GET, HEAD) whose normal
+    connection cannot even read (a folder made read-only or a disk filled
+    while the server runs) falls back to a read-only one, so every page and
+    the export keep working for rescue; a save then answers 503."""
     if "db" not in g:
-        g.db = store.connect(current_app.config["DATABASE"], upgrade=False)
+        if request.method in ("GET", "HEAD") or current_app.config.get("LOG_READ_ONLY"):
+            g.db = open_read_connection()
+        else:
+            g.db = store.connect(current_app.config["DATABASE"], upgrade=False)
     return g.db
+
+
+def open_read_connection() -> sqlite3.Connection:
+    """A connection for reading: the normal one when it can read, else one that
+    cannot write (a damaged log, a read-only folder, a full disk)."""
+    path = current_app.config["DATABASE"]
+    if current_app.config.get("LOG_READ_ONLY"):
+        return store.connect_readonly(path)
+    conn = None
+    try:
+        conn = store.connect(path, upgrade=False)
+        conn.execute("SELECT count(*) FROM sqlite_master").fetchone()
+        return conn
+    except sqlite3.OperationalError:
+        if conn is not None:
+            conn.close()
+        return store.connect_readonly(path)
 
 
 def close_db(exc=None):
@@ -48,6 +74,30 @@ def register_common(app):
     app.add_template_filter(labels.readable_source, "cite")
     app.add_template_filter(lambda s: labels.SEVERITY_LABELS.get(s, s), "severity_label")
     app.add_template_filter(labels.sample_label, "sample_label")
+
+    @app.before_request
+    def _refuse_writes_when_read_only():
+        problem = current_app.config.get("LOG_READ_ONLY")
+        if problem and request.method in ("POST", "PUT", "PATCH", "DELETE"):
+            return jsonify(error=problem + " Your reading is kept on this device.",
+                           field=None, read_only=True), 503
+
+    @app.context_processor
+    def _log_problem():
+        return {"log_problem": current_app.config.get("LOG_READ_ONLY")}
+
+    @app.errorhandler(sqlite3.DatabaseError)
+    def _damaged(e):
+        if isinstance(e, sqlite3.OperationalError):
+            return _db_error(e)
+        app.logger.exception("damaged log")
+        problem = (f"Part of the log cannot be read ({e}): the file is damaged. Nothing more "
+                   "is written to it. " + store._restore_hint(
+                       __import__("pathlib").Path(current_app.config["DATABASE"])))
+        current_app.config["LOG_READ_ONLY"] = problem
+        if _wants_json():
+            return jsonify(error=problem, field=None, read_only=True), 503
+        return render_template("error.html", message=problem), 503
 
     @app.errorhandler(InputError)
     def _input_error(e):

@@ -148,7 +148,8 @@ def export_csv():
         safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
         filename = f"fieldapp-{safe}.csv"
     # The generator keeps its own connection: the request's one closes at teardown.
-    conn = store.connect(db_path(), upgrade=False)
+    from . import open_read_connection
+    conn = open_read_connection()
 
     def generate():
         try:

@@ -70,6 +70,11 @@ FAILS_OVERALL = 20
 FAIL_WINDOW_S = 600
 JSON_BODY_MAX = 1024 * 1024                  # a reading is a few hundred bytes
 TOUCH_EVERY_S = 300                          # how often "last seen" is written
+#: Devices one code may pair before a new code is needed (config
+#: PAIRING_DEVICES_PER_CODE): a crew's tablets, not the whole hotspot.
+DEVICES_PER_CODE = 10
+#: A pairing not used for this long stops working (config PAIRING_IDLE_DAYS).
+PAIRING_IDLE_DAYS = 90
 
 #: Nothing from another origin, no inline script or style, no eval, no
 #: plugins, no framing. (Browser tests wait with "() => expression" functions,
@@ -220,41 +225,37 @@ def current_code(conn, create: bool = False) -> sqlite3.Row | None:
 
 
 class FailureLimiter:
-    """Counts wrong pairing codes in a sliding window, per address and overall.
-    In memory: a restart forgets, which costs an attacker a restart of the
-    laptop they cannot reach."""
+    """Counts wrong pairing codes in a sliding window, per address and overall,
+    in the log itself (``pairing_failures``), so a restart does not clear it.
+
+    Throttle by address first: an address with ``per_address`` wrong codes in
+    the window waits. Past the ``overall`` limit every address that has typed
+    a wrong code at all waits too, but an address with no wrong code of its
+    own is still heard: the tablet with the right code pairs, whatever others
+    on the network send. Checks and counts run under one lock, so a parallel
+    burst is counted one by one (waitress is one process with threads)."""
 
     def __init__(self, per_address=FAILS_PER_ADDRESS, overall=FAILS_OVERALL,
-                 window_s=FAIL_WINDOW_S, clock=time.monotonic):
+                 window_s=FAIL_WINDOW_S, clock=time.time):
         self.per_address, self.overall, self.window_s = per_address, overall, window_s
         self.clock = clock
-        self._lock = threading.Lock()
-        self._by_addr: dict[str, deque] = {}
-        self._all: deque = deque()
+        self.lock = threading.Lock()
 
-    def _prune(self, q: deque, now: float) -> None:
-        while q and q[0] <= now - self.window_s:
-            q.popleft()
+    def retry_after(self, conn, addr: str) -> int:
+        """Seconds this address must wait before a code is even looked at (0: now).
+        Call with ``self.lock`` held."""
+        now = self.clock()
+        c = store.pairing_failure_counts(conn, addr, now - self.window_s)
+        if c["address"] >= self.per_address or (c["overall"] >= self.overall
+                                                and c["address"] > 0):
+            oldest = c["address_oldest"] if c["address"] >= self.per_address \
+                else max(c["address_oldest"], c["overall_oldest"])
+            return max(1, int(oldest + self.window_s - now) + 1)
+        return 0
 
-    def retry_after(self, addr: str) -> int:
-        """Seconds to wait before this address may try again (0: now)."""
-        with self._lock:
-            now = self.clock()
-            q = self._by_addr.get(addr, deque())
-            self._prune(q, now)
-            self._prune(self._all, now)
-            waits = []
-            if len(q) >= self.per_address:
-                waits.append(q[0] + self.window_s - now)
-            if len(self._all) >= self.overall:
-                waits.append(self._all[0] + self.window_s - now)
-            return max(1, int(max(waits)) + 1) if waits else 0
-
-    def fail(self, addr: str) -> None:
-        with self._lock:
-            now = self.clock()
-            self._by_addr.setdefault(addr, deque()).append(now)
-            self._all.append(now)
+    def fail(self, conn, addr: str) -> None:
+        now = self.clock()
+        store.add_pairing_failure(conn, addr, now, now - self.window_s)
 
 
 def _limiter() -> FailureLimiter:
@@ -395,8 +396,15 @@ def _paired_device():
     row = store.device_by_token(db, token_digest(token))
     if row is None:
         return None
+    idle_days = float(current_app.config.get("PAIRING_IDLE_DAYS", PAIRING_IDLE_DAYS))
     try:
         seen = dt.datetime.fromisoformat(row["last_seen_at"])
+    except ValueError:
+        return None
+    if (dt.datetime.now(dt.timezone.utc) - seen).total_seconds() > idle_days * 86400:
+        g.pairing_expired = True
+        return None
+    try:
         if (dt.datetime.now(dt.timezone.utc) - seen).total_seconds() > TOUCH_EVERY_S \
                 or row["address"] != (request.remote_addr or ""):
             store.touch_device(db, row["id"], request.remote_addr or "")
@@ -405,14 +413,45 @@ def _paired_device():
     return row
 
 
+def safe_next(target) -> str:
+    """A path on this server to return to after pairing, or "/".
+
+    Read as a browser reads an address: tabs and line breaks are dropped
+    (the URL standard strips them), a backslash counts as a slash; what is
+    left must parse with no scheme and no host and start with one "/".
+    The page's script checks again with the browser's own URL parser."""
+    s = "".join(c for c in str(target or "") if c not in "\t\n\r").replace("\\", "/")
+    if len(s) > 2000 or not s.startswith("/") or s.startswith("//"):
+        return "/"
+    try:
+        p = urlsplit(s)
+    except ValueError:
+        return "/"
+    if p.scheme or p.netloc or any(ord(c) < 32 for c in s):
+        return "/"
+    return s
+
+
+def _return_path() -> str:
+    """The address asked for, percent-encoded as it came (full_path is decoded)."""
+    from urllib.parse import quote
+    path = quote(request.path, safe="/-._~!$&'()*+,;=:@")
+    qs = request.query_string.decode("latin-1")
+    return safe_next(path + ("?" + qs if qs else ""))
+
+
 def _not_paired():
     msg = ("This device is not paired with the field laptop. Open /pair and type the code "
            "the laptop shows.")
+    if g.get("pairing_expired"):
+        msg = ("This device's pairing expired: it was not used for "
+               f"{current_app.config.get('PAIRING_IDLE_DAYS', PAIRING_IDLE_DAYS):g} days. "
+               "Open /pair and type the code the laptop shows.")
     if _wants_json():
         resp = jsonify(error=msg, field=None, pair="/pair")
     else:
         resp = Response(render_template("pair.html", mode="pair", lan=True, paired=None,
-                                        next=request.full_path.rstrip("?")),
+                                        next=_return_path()),
                         mimetype="text/html")
     resp.status_code = 401
     resp.headers["WWW-Authenticate"] = 'FieldPairing realm="fieldapp"'
@@ -455,14 +494,6 @@ def pair():
         return jsonify(error="This server is for this machine only; no pairing is needed.",
                        field=None), 409
     addr = request.remote_addr or ""
-    wait = _limiter().retry_after(addr)
-    if wait:
-        resp = jsonify(error=f"Too many wrong codes. Wait {max(1, round(wait / 60))} "
-                             "minute(s), then type the code the laptop shows now.",
-                       field="code")
-        resp.status_code = 429
-        resp.headers["Retry-After"] = str(wait)
-        return resp
     body = request.get_json(silent=True)
     if not isinstance(body, dict):
         return jsonify(error="Send the code as JSON.", field="body"), 400
@@ -472,14 +503,30 @@ def pair():
     label = " ".join(str(body.get("name") or "").split())[:60]
     from . import get_db
     db = get_db()
-    match = None
-    for row in store.active_pairing_codes(db, _utc()):
-        if hmac.compare_digest(row["code"].encode(), typed.encode()):
-            match = row
-    if match is None:
-        _limiter().fail(addr)
-        return jsonify(error="That code is not valid. Type the code the laptop shows now "
-                             "(codes expire after a day or when renewed).", field="code"), 403
+    limiter = _limiter()
+    with limiter.lock:
+        wait = limiter.retry_after(db, addr)
+        if wait:
+            resp = jsonify(error=f"Too many wrong codes from this device. Wait "
+                                 f"{max(1, round(wait / 60))} minute(s), then type the code "
+                                 "the laptop shows now.", field="code")
+            resp.status_code = 429
+            resp.headers["Retry-After"] = str(wait)
+            return resp
+        match = None
+        for row in store.active_pairing_codes(db, _utc()):
+            if hmac.compare_digest(row["code"].encode(), typed[:64].encode()):
+                match = row
+        if match is None:
+            limiter.fail(db, addr)
+            return jsonify(error="That code is not valid. Type the code the laptop shows "
+                                 "now (codes expire after a day or when renewed).",
+                           field="code"), 403
+        limit = current_app.config.get("PAIRING_DEVICES_PER_CODE", DEVICES_PER_CODE)
+        if store.devices_paired_with(db, match["id"]) >= limit:
+            return jsonify(error=f"This code has paired {limit} devices already. On the "
+                                 "laptop, open Devices and make a new code.",
+                           field="code"), 409
     token = secrets.token_urlsafe(32)
     device = store.insert_device(db, token_digest(token), label,
                                  (request.user_agent.string or "")[:200], addr, match["id"])
