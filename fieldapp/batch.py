@@ -42,6 +42,16 @@ def _cell_number(cell: str, line: int, field: str) -> float:
     return math.nan if x is None else x
 
 
+def _parsed(cache: dict, text: str, parse, line: int, field: str):
+    """Parse a cell once per distinct text (a column repeats few values)."""
+    if text not in cache:
+        try:
+            cache[text] = parse(text)
+        except InputError as e:
+            raise RowError(f"line {line}: {e.message}", field) from None
+    return cache[text]
+
+
 def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
     n = len(rows)
     value = np.empty(n)
@@ -70,23 +80,11 @@ def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
         cols["texture"][i] = (r.get("texture") or "").strip() or None
         cols["ece_method"][i] = (r.get("ece_method") or "").strip() or None
         cols["crop"][i] = (r.get("crop") or "").strip() or None
-        salt = (r.get("salt_type") or "").strip()
-        if salt not in salt_cache:
-            try:
-                salt_cache[salt] = convert.parse_salt_type(salt)
-            except InputError as e:
-                raise RowError(f"line {line}: {e.message}", "salt_type") from None
-        cols["salt_type"][i] = salt_cache[salt]
+        cols["salt_type"][i] = _parsed(salt_cache, (r.get("salt_type") or "").strip(),
+                                       convert.parse_salt_type, line, "salt_type")
         ratio = (r.get("ratio") or "").strip()
-        if ratio:
-            if ratio not in ratio_cache:
-                try:
-                    ratio_cache[ratio] = extracts.parse_ratio(ratio)
-                except InputError as e:
-                    raise RowError(f"line {line}: {e.message}", "ratio") from None
-            nums["ratio_n"][i] = ratio_cache[ratio]
-        else:
-            nums["ratio_n"][i] = math.nan
+        nums["ratio_n"][i] = (_parsed(ratio_cache, ratio, extracts.parse_ratio, line, "ratio")
+                              if ratio else math.nan)
         nums["temp_c"][i] = _cell_number(r.get("temp_c"), line, "temp_c")
         nums["sp_pct"][i] = _cell_number(r.get("sp"), line, "sp")
         nums["tds_factor"][i] = _cell_number(r.get("tds_factor"), line, "tds_factor")

@@ -103,3 +103,32 @@ def browser():
 
 PHONE = {"width": 360, "height": 740}
 TABLET = {"width": 800, "height": 1280}
+
+
+@pytest.fixture
+def small_disk(tmp_path):
+    """A 4 MB file system of its own (tmpfs): needs root, as CI and tests/run.sh are."""
+    mnt = tmp_path / "small"
+    mnt.mkdir()
+    r = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=4m", "tmpfs", str(mnt)],
+                       capture_output=True, text=True)
+    if r.returncode != 0:
+        pytest.skip(f"cannot mount a small file system here: {r.stderr.strip()}")
+    try:
+        yield mnt
+    finally:
+        subprocess.run(["mount", "-o", "remount,rw", str(mnt)], capture_output=True)
+        subprocess.run(["umount", "-l", str(mnt)], capture_output=True)
+
+
+def fill(folder: Path) -> Path:
+    """Fill a (small) file system until the disk is full; returns the filler file."""
+    filler = folder / "filler"
+    with open(filler, "wb") as f:
+        try:
+            while True:
+                f.write(b"\0" * 65536)
+                f.flush()
+        except OSError:
+            pass
+    return filler

@@ -17,6 +17,7 @@ from pathlib import Path
 import pytest
 
 from fieldapp import create_app, store
+from conftest import fill
 
 ROOT = Path(__file__).resolve().parent.parent
 READING = {"site": "Block 3", "sample": "water", "unit": "dS/m", "compensated": True}
@@ -116,34 +117,6 @@ def test_the_cli_on_a_damaged_log_says_so_in_one_line(tmp_path):
 
 
 # ------------------------------------------------------------ read-only folder, full disk
-
-@pytest.fixture
-def small_disk(tmp_path):
-    """A 4 MB file system of its own (tmpfs): needs root, as CI and tests/run.sh are."""
-    mnt = tmp_path / "small"
-    mnt.mkdir()
-    r = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=4m", "tmpfs", str(mnt)],
-                       capture_output=True, text=True)
-    if r.returncode != 0:
-        pytest.skip(f"cannot mount a small file system here: {r.stderr.strip()}")
-    try:
-        yield mnt
-    finally:
-        subprocess.run(["mount", "-o", "remount,rw", str(mnt)], capture_output=True)
-        subprocess.run(["umount", "-l", str(mnt)], capture_output=True)
-
-
-def fill(folder: Path) -> Path:
-    filler = folder / "filler"
-    with open(filler, "wb") as f:
-        try:
-            while True:
-                f.write(b"\0" * 65536)
-                f.flush()
-        except OSError:
-            pass
-    return filler
-
 
 def _rescue_works(app, n_readings, other: Path):
     c = app.test_client()

@@ -29,7 +29,7 @@ from pathlib import Path
 
 import pytest
 
-from conftest import PHONE, ServerProcess
+from conftest import PHONE, ServerProcess, fill
 from fieldapp import store
 
 ROUNDS = 8
@@ -168,33 +168,6 @@ def test_a_save_that_cannot_be_written_is_a_clear_503_and_nothing_changes(
     assert client.post("/api/readings", json=body).status_code == 201
     assert client.post("/api/readings", json=body).status_code == 200      # a resend
     assert db.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 2
-
-
-@pytest.fixture
-def small_disk(tmp_path):
-    """A 4 MB file system of its own (tmpfs): needs root, as CI and tests/run.sh are."""
-    mnt = tmp_path / "small"
-    mnt.mkdir()
-    r = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=4m", "tmpfs", str(mnt)],
-                       capture_output=True, text=True)
-    if r.returncode != 0:
-        pytest.skip(f"cannot mount a small file system here: {r.stderr.strip()}")
-    try:
-        yield mnt
-    finally:
-        subprocess.run(["umount", "-l", str(mnt)], capture_output=True)
-
-
-def fill(folder: Path) -> Path:
-    filler = folder / "filler"
-    with open(filler, "wb") as f:
-        try:
-            while True:
-                f.write(b"\0" * 65536)
-                f.flush()
-        except OSError:
-            pass
-    return filler
 
 
 @pytest.mark.browser
