@@ -44,8 +44,9 @@ def test_setting_the_crop_shows_the_expected_yield(browser, server, size, tmp_pa
     page.fill("#depth_cm", "30")
     page.fill("#value", "4.4")
     page.click("#save")
-    page.wait_for_function("() => fetch('/api/readings?site=Block 5').then(r => r.json())"
-                           ".then(rs => rs.length === 1)")
+    page.wait_for_function("() => document.querySelector('#saved').textContent"
+                           ".includes('Saved to the log')")
+    assert len(api(page, "/api/readings?site=Block 5")) == 1
     site = next(s for s in api(page, "/api/sites") if s["name"] == "Block 5")
     assert site["crop"] is None
     page.goto(f"{server.url}/sites/{site['id']}")
