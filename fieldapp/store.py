@@ -337,9 +337,10 @@ def list_sites(conn) -> list[sqlite3.Row]:
 
 
 def open_flag_counts(conn) -> dict[int, int]:
-    """Per site, how many current readings carry a warning or an error that
-    nobody has acknowledged yet (the sites list marks them until a correction
-    or an acknowledgement settles each)."""
+    """Per site, how many current readings carry an error-level flag that
+    nobody has acknowledged (a reading saved where the page could not check
+    it: the sites list marks it until a correction or an acknowledgement
+    settles it; "Save anyway" on the page acknowledges at once)."""
     rows = conn.execute("""
         SELECT r.site_id, COUNT(DISTINCT r.id)
         FROM readings r
@@ -347,7 +348,7 @@ def open_flag_counts(conn) -> dict[int, int]:
         WHERE r.flags <> ''
           AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = r.id)
           AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = r.id)
-          AND json_extract(f.value, '$.severity') IN ('warning', 'error')
+          AND json_extract(f.value, '$.severity') = 'error'
           AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
                           AND a.code = json_extract(f.value, '$.code'))
         GROUP BY r.site_id""").fetchall()

@@ -614,6 +614,17 @@
       });
   }
 
+  // A reading in the "check" list that was corrected or voided elsewhere
+  // (the site log, another device) leaves the list.
+  function settleArrived() {
+    box.arrived().forEach(function (it) {
+      fetch("/api/readings/" + encodeURIComponent(it.uuid), { credentials: "same-origin" })
+        .then(function (r) { return r.ok ? r.json() : null; })
+        .then(function (rec) { if (rec && rec.status && rec.status !== "current") box.dropArrived(it.uuid); })
+        .catch(function () { /* offline: keep it */ });
+    });
+  }
+
   restore();
   var params = new URLSearchParams(window.location.search);
   if (params.get("site") && params.get("site") !== $("site").value) {
@@ -624,5 +635,6 @@
   showFor();
   renderRefused();
   renderArrived();
+  settleArrived();
   if (params.get("correct")) startCorrection(params.get("correct"));
 })();
