@@ -8,7 +8,8 @@
 "use strict";
 var CACHE = "fieldapp-v3";
 var SHELL = ["/", "/static/style.css", "/static/outbox.js", "/static/entry.js", "/static/site.js",
-             "/static/meters.js", "/static/map.js", "/static/site_views.js"];
+             "/static/meters.js", "/static/map.js", "/static/site_views.js",
+             "/static/site_settings.js"];
 
 self.addEventListener("install", function (ev) {
   ev.waitUntil(caches.open(CACHE).then(function (c) { return c.addAll(SHELL); })
