@@ -299,6 +299,19 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _reader_went_away() -> int:
+    """The program reading our output stopped (``| head -1``): say nothing more.
+    Standard output is pointed at the null device so that Python's last flush
+    at exit cannot raise again (the recipe of the Python docs, "Note on SIGPIPE")."""
+    import os
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+    return 1
+
+
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     if argv[:1] == ["bench"]:
@@ -307,6 +320,8 @@ def main(argv=None) -> int:
     args = build_parser().parse_args(argv)
     try:
         return args.func(args)
+    except BrokenPipeError:
+        return _reader_went_away()
     except InputError as e:
         print(f"fieldapp: {e.message}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -316,8 +331,6 @@ def main(argv=None) -> int:
             print(f"fieldapp: {e.message}", file=sys.stderr)
             return EXIT_BAD_INPUT
         raise
-    except BrokenPipeError:
-        return 0
     except KeyboardInterrupt:
         return 130
 
