@@ -212,15 +212,3 @@ def cmd_restore(a) -> int:
     if r["kept"]:
         print(f"fieldapp: the log it replaced is kept as {r['kept']}.")
     return 0
-
-
-def add_commands(sub) -> None:
-    """The backup and restore subcommands of ``python -m fieldapp``."""
-    b = sub.add_parser("backup", help="copy the log safely, even while the server runs")
-    b.add_argument("output", help="file to write, or a folder (a dated name is chosen)")
-    b.add_argument("--data", help="folder of the log")
-    b.set_defaults(func=cmd_backup)
-    r = sub.add_parser("restore", help="bring back a backup; the current log is kept aside")
-    r.add_argument("file", help="a file made by backup")
-    r.add_argument("--data", help="folder of the log")
-    r.set_defaults(func=cmd_restore)
