@@ -1,9 +1,49 @@
-"""``python -m fieldapp``: the command line (see fieldapp.cli)."""
+"""``python -m fieldapp``: the command line (fieldapp.cli, on click).
+
+``cmd_serve`` starts the web app for ``fieldapp serve`` (its options are
+declared in fieldapp/cli/data.py).
+"""
 from __future__ import annotations
 
 import sys
 
 from .cli import main
+from .science import InputError
+
+
+def _data_dir(a):
+    from . import default_data_dir
+    return a.data or str(default_data_dir())
+
+
+def cmd_serve(a) -> int:
+    import waitress
+    from . import create_app, demo, store
+    from .web.security import binds_to_network, start_lan
+    bind = a.host or ("0.0.0.0" if a.lan else "127.0.0.1")
+    lan = a.lan or binds_to_network(bind)      # never on the network without pairing
+    try:
+        app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days,
+                          "LAN": lan})
+    except store.StoreError as e:
+        raise InputError(e.message, "data") from None
+    if a.demo:
+        conn = store.connect(app.config["DATABASE"])
+        try:
+            n = demo.load(conn)
+        finally:
+            conn.close()
+        print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
+    print(f"fieldapp {__import__('fieldapp').__version__}: log in {app.config['DATABASE']}",
+          flush=True)
+    if lan:
+        print("\n".join(start_lan(app, bind, a.port)), flush=True)
+    print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
+          flush=True)
+    waitress.serve(app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
+                   max_request_body_size=app.config["MAX_CONTENT_LENGTH"], _quiet=True)
+    return 0
+
 
 if __name__ == "__main__":
     sys.exit(main())

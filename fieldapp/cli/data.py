@@ -27,33 +27,11 @@ from .common import data_dir, data_option, open_log
 @click.option("--threads", type=int, default=8, hidden=True)
 def serve(host, lan, port, data, demo, check_days, threads):
     """Start the local web app."""
-    import waitress
+    import types
 
-    from .. import __version__, create_app, store
-    from .. import demo as demo_mod
-    from ..web.security import binds_to_network, start_lan
-    bind = host or ("0.0.0.0" if lan else "127.0.0.1")
-    lan = lan or binds_to_network(bind)      # never on the network without pairing
-    try:
-        app = create_app({"DATA_DIR": data_dir(data), "CALIBRATION_MAX_AGE_DAYS": check_days,
-                          "LAN": lan})
-    except store.StoreError as e:
-        raise InputError(e.message, "data") from None
-    if demo:
-        conn = store.connect(app.config["DATABASE"])
-        try:
-            n = demo_mod.load(conn)
-        finally:
-            conn.close()
-        print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
-    print(f"fieldapp {__version__}: log in {app.config['DATABASE']}", flush=True)
-    if lan:
-        print("\n".join(start_lan(app, bind, port)), flush=True)
-    print(f"Open http://localhost:{port}/ in a browser on this machine (Ctrl+C stops).",
-          flush=True)
-    waitress.serve(app, host=bind, port=port, threads=threads, ident="fieldapp",
-                   max_request_body_size=app.config["MAX_CONTENT_LENGTH"], _quiet=True)
-    return 0
+    from ..__main__ import cmd_serve
+    return cmd_serve(types.SimpleNamespace(host=host, lan=lan, port=port, data=data, demo=demo,
+                                           check_days=check_days, threads=threads))
 
 
 @cli.command()
