@@ -5,19 +5,34 @@ lives in ``fieldapp.science`` and knows nothing of Flask or SQL.
 """
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 __version__ = "0.1.0"
 
-#: Top-level folders of the repository (the design card keeps them outside the package).
-REPO_ROOT = Path(__file__).resolve().parent.parent
+_PACKAGE = Path(__file__).resolve().parent
+#: The repository's top level in a checkout (templates/ and static/ live there).
+REPO_ROOT = _PACKAGE.parent
+
+
+def resource_dir(name: str) -> Path:
+    """The folder of the page's ``templates`` or ``static`` files.
+
+    An installed fieldapp (wheel, ``pip install .``, pipx) carries them inside
+    the package, where the build puts the repository's top-level folders; a
+    checkout or an editable install finds them at the repository's top level."""
+    inside = _PACKAGE / name
+    if inside.is_dir():
+        return inside
+    return REPO_ROOT / name
 
 
 def default_data_dir() -> Path:
-    """The user's data directory: $XDG_DATA_HOME/fieldapp or ~/.local/share/fieldapp."""
-    base = os.environ.get("XDG_DATA_HOME") or os.path.join(Path.home(), ".local", "share")
-    return Path(base) / "fieldapp"
+    """The user's data folder for fieldapp, where each system keeps it
+    (platformdirs): ~/.local/share/fieldapp (or $XDG_DATA_HOME) on Linux,
+    ~/Library/Application Support/fieldapp on macOS,
+    %LOCALAPPDATA%\\fieldapp on Windows."""
+    from platformdirs import user_data_dir
+    return Path(user_data_dir("fieldapp", appauthor=False))
 
 
 def open_log_at_start(db_path: str) -> str | None:
@@ -66,8 +81,8 @@ def create_app(config: dict | None = None):
     from . import store
     from .web import api, pages, register_common
 
-    app = Flask(__name__, template_folder=str(REPO_ROOT / "templates"),
-                static_folder=str(REPO_ROOT / "static"), static_url_path="/static")
+    app = Flask(__name__, template_folder=str(resource_dir("templates")),
+                static_folder=str(resource_dir("static")), static_url_path="/static")
     app.config.update(
         DATA_DIR=str(default_data_dir()),
         MAX_CONTENT_LENGTH=8 * 1024 * 1024,

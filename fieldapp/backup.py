@@ -36,7 +36,9 @@ def _stamp() -> str:
 
 
 def _fsync_path(path: Path) -> None:
-    fd = os.open(path, os.O_RDONLY)
+    # Windows flushes a file only through a handle open for writing.
+    flags = (os.O_RDWR | getattr(os, "O_BINARY", 0)) if os.name == "nt" else os.O_RDONLY
+    fd = os.open(path, flags)
     try:
         os.fsync(fd)
     finally:
@@ -44,10 +46,18 @@ def _fsync_path(path: Path) -> None:
 
 
 def _fsync_dir(path: Path) -> None:
+    if os.name == "nt":   # Windows cannot open a folder as a file; NTFS logs the rename
+        return
     try:
         _fsync_path(path)
     except OSError:   # not every platform can fsync a folder
         pass
+
+
+def _read_only_uri(path: Path) -> str:
+    """A read-only SQLite URI for ``path`` that holds on Windows too (drive
+    letters, backslashes) and for names with '?', '#' or '%' in them."""
+    return Path(path).resolve().as_uri() + "?mode=ro"
 
 
 def check_log_file(path: Path) -> dict:
@@ -57,7 +67,7 @@ def check_log_file(path: Path) -> dict:
     if not path.is_file():
         raise store.StoreError(f"{path} does not exist or is not a file.", "file")
     try:
-        conn = sqlite3.connect(f"file:{path}?mode=ro", uri=True)
+        conn = sqlite3.connect(_read_only_uri(path), uri=True)
     except sqlite3.Error as e:
         raise store.StoreError(f"{path} cannot be opened ({e}).", "file") from None
     try:
@@ -181,7 +191,7 @@ def restore(backup_file, db_path) -> dict:
             for suffix in ("", "-wal", "-shm"):
                 db_path.with_name(db_path.name + suffix).unlink(missing_ok=True)
         _fsync_path(kept)
-    src = sqlite3.connect(f"file:{backup_file}?mode=ro", uri=True)
+    src = sqlite3.connect(_read_only_uri(backup_file), uri=True)
     dst = sqlite3.connect(db_path, timeout=30)
     try:
         src.backup(dst)
@@ -211,15 +221,3 @@ def cmd_restore(a) -> int:
     if r["kept"]:
         print(f"fieldapp: the log it replaced is kept as {r['kept']}.")
     return 0
-
-
-def add_commands(sub) -> None:
-    """The backup and restore subcommands of ``python -m fieldapp``."""
-    b = sub.add_parser("backup", help="copy the log safely, even while the server runs")
-    b.add_argument("output", help="file to write, or a folder (a dated name is chosen)")
-    b.add_argument("--data", help="folder of the log")
-    b.set_defaults(func=cmd_backup)
-    r = sub.add_parser("restore", help="bring back a backup; the current log is kept aside")
-    r.add_argument("file", help="a file made by backup")
-    r.add_argument("--data", help="folder of the log")
-    r.set_defaults(func=cmd_restore)

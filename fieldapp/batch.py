@@ -7,6 +7,7 @@ the next chunk is read, so memory stays flat however long the file is.
 from __future__ import annotations
 
 import csv
+import json
 import math
 from typing import Iterable, Iterator, TextIO
 
@@ -165,17 +166,28 @@ def chunks(reader: Iterable[dict], size: int = CHUNK_ROWS) -> Iterator[list[dict
         yield buf
 
 
-def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS) -> int:
+def _json_column(arr) -> list:
+    if arr.dtype == object or arr.dtype == bool:
+        return [None if v is None else (bool(v) if arr.dtype == bool else v) for v in arr]
+    return [None if not math.isfinite(v) else v for v in arr.astype(float).tolist()]
+
+
+def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
+                fmt: str = "csv") -> int:
     """Read readings from ``src`` (CSV with a header), write them with the
-    computed columns to ``dst``. Returns the number of rows. Raises RowError
-    naming the line of the first row that cannot be a reading."""
+    computed columns to ``dst``: as CSV, or with ``fmt="json"`` as one JSON
+    object per line (numbers unrounded, flags as a list of codes). Returns the
+    number of rows. Raises RowError naming the line of the first row that
+    cannot be a reading."""
     reader = csv.DictReader(src)
     if not reader.fieldnames or "value" not in reader.fieldnames or "unit" not in reader.fieldnames:
         raise RowError("the file needs a header row with at least the columns value and unit "
                        f"(known columns: {', '.join(INPUT_COLUMNS)}).", "file")
     in_cols = list(reader.fieldnames)
+    out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
     writer = csv.writer(dst, lineterminator="\r\n")
-    writer.writerow(in_cols + [c for c in OUTPUT_COLUMNS if c not in in_cols])
+    if fmt != "json":
+        writer.writerow(in_cols + out_cols)
     line = 2
     total = 0
     for chunk in chunks(reader, chunk_rows):
@@ -185,11 +197,21 @@ def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS) -> int:
             raise
         except InputError as e:
             raise RowError(f"lines {line}-{line + len(chunk) - 1}: {e.message}", e.field) from None
-        cols = {c: _format_column(out[c]) for c in OUTPUT_COLUMNS if c != "flags"}
-        cols["flags"] = out["flags"].codes_column().tolist()
-        for i, r in enumerate(chunk):
-            writer.writerow([r.get(c, "") for c in in_cols]
-                            + [cols[c][i] for c in OUTPUT_COLUMNS if c not in in_cols])
+        if fmt == "json":
+            cols = {c: _json_column(out[c]) for c in out_cols if c != "flags"}
+            if "flags" in out_cols:
+                cols["flags"] = [[f for f in codes.split(";") if f]
+                                 for codes in out["flags"].codes_column().tolist()]
+            for i, r in enumerate(chunk):
+                rec = {c: r.get(c, "") for c in in_cols}
+                rec.update((c, cols[c][i]) for c in out_cols)
+                dst.write(json.dumps(rec, ensure_ascii=False) + "\n")
+        else:
+            cols = {c: _format_column(out[c]) for c in OUTPUT_COLUMNS if c != "flags"}
+            cols["flags"] = out["flags"].codes_column().tolist()
+            for i, r in enumerate(chunk):
+                writer.writerow([r.get(c, "") for c in in_cols]
+                                + [cols[c][i] for c in out_cols])
         line += len(chunk)
         total += len(chunk)
     return total

@@ -182,6 +182,30 @@ def validate_meter(body: dict) -> dict:
             "tds_factor": _tds_factor(body), "notes": str(body.get("notes") or "")[:2000]}
 
 
+def meter_from_body(body: dict) -> dict:
+    """A validated meter profile from a body that may name a preset
+    (``preset``: its name or label) instead of giving the ranges."""
+    if isinstance(body, dict) and body.get("preset") and not body.get("ranges"):
+        preset = next((p for p in presets() if body["preset"] in (p["name"], p["label"])),
+                      None)
+        if preset is None:
+            raise InputError("Unknown preset; see GET /api/meters.", "preset")
+        body = {**preset, **{k: v for k, v in body.items() if k != "preset"}}
+    return validate_meter(body)
+
+
+def record_check(conn, body: dict) -> dict:
+    """Check a meter (``body["meter"]``, a profile's name) against a standard
+    and keep the check; returns it with expected, deviation and passed."""
+    from . import store
+    name = body.get("meter") if isinstance(body, dict) else None
+    meter = store.get_meter(conn, str(name)) if name else None
+    if meter is None:
+        raise InputError("Choose a meter profile (add it on the Meters page first).", "meter")
+    stored = store.insert_calibration(conn, calibration_check(body, meter))
+    return {**stored, "meter": meter["name"]}
+
+
 def _tds_factor(body):
     f = _num(body, "tds_factor", "the meter's TDS factor")
     if f is not None:

@@ -244,6 +244,45 @@ def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS
     return row, created
 
 
+#: What a correction carries over from the version it replaces unless changed.
+CORRECTION_CARRIED = ("sample", "depth_cm", "value", "unit", "temp_c", "ratio", "texture",
+                      "tds_factor", "theta_g_pct", "matric_MPa", "meter", "replicate_group",
+                      "note", "taken_at", "visited_by")
+
+
+def correct_reading(conn, uuid: str, changes: dict,
+                    max_age_days: float = DEFAULT_MAX_AGE_DAYS):
+    """A corrected version of reading ``uuid``: a new reading that points at
+    the one it replaces, with the old values except those in ``changes`` (same
+    site; same time unless changed on purpose). Returns (row, created)."""
+    old = store.get_reading(conn, uuid)
+    if old is None:
+        raise store.StoreError("No such reading.", "uuid", 404)
+    if not isinstance(changes, dict):
+        raise InputError("Send the reading as a JSON object.", "body")
+    payload = {k: old[k] for k in CORRECTION_CARRIED}
+    payload["compensated"] = bool(old["compensated"])
+    payload["sp"] = old["sp_pct"]
+    payload.update(changes)
+    payload["site"] = old["site"]
+    payload["supersedes"] = uuid
+    return save_reading(conn, payload, max_age_days)
+
+
+def ack_flag(conn, uuid: str, code, note) -> dict:
+    """Acknowledge a flag of a reading with a note: the flag stays, the note
+    says why it is fine."""
+    code = str(code or "").strip()
+    note = " ".join(str(note or "").split())
+    if not code:
+        raise InputError("Say which flag (its code) you acknowledge.", "code")
+    if not note:
+        raise InputError("Add a short note saying why the flag is acceptable.", "note")
+    if len(note) > NOTE_MAX:
+        raise InputError(f"The note is at most {NOTE_MAX} characters.", "note")
+    return store.ack_flag(conn, uuid, code, note)
+
+
 #: The note kept with an error-level flag that the scout saw and saved anyway.
 SAVED_ANYWAY_NOTE = "Seen before saving; saved anyway by {who} on the entry page."
 

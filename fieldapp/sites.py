@@ -199,3 +199,22 @@ def history_changes(rows: list[Mapping]) -> list[dict]:
         d["rows"] = [{k: r[k] for k in ("field", "old_value", "new_value")} for r in by_no[no]]
         out.append(d)
     return out
+
+
+def site_dict(row) -> dict:
+    """A site as the API and the command line show it, with its kind's label."""
+    d = {k: row[k] for k in row.keys()}
+    d["kind_label"] = kind_label(d.get("kind"))
+    return d
+
+
+def create_site(conn, body) -> dict:
+    """Set up a new site with its settings; its creation opens its history."""
+    from . import store
+    attrs = validate_settings(body, creating=True)
+    name = store.clean_site_name(attrs.pop("name"))
+    if store.get_site(conn, name, former_names=False) is not None:
+        raise store.StoreError(f"A site called {name!r} exists already.", "name", 409)
+    with store.transaction(conn):
+        row = store.ensure_site(conn, name, former_names=False, **attrs)
+    return site_dict(row)

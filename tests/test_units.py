@@ -225,10 +225,25 @@ def test_value_that_is_not_a_number_is_refused(bad):
     assert exc.value.field == "value"
 
 
-def test_ureg_is_a_single_registry_with_tds_units():
-    # SI: 1 ppm_tds is defined as 1 mg/L, 1 ppt_tds as 1 g/L
-    assert u.ureg.Quantity(1, "ppt_tds").to("mg/L").magnitude == pytest.approx(1000.0)
-    assert u.ureg.Quantity(3, "mmho/cm").to("dS/m").magnitude == pytest.approx(3.0)
+def test_every_factor_agrees_with_pint():
+    """The module's exact factors against pint's SI definitions (pint is a
+    test-only reference here; fieldapp no longer loads it at start-up)."""
+    pint = pytest.importorskip("pint")
+    ureg = pint.UnitRegistry()
+    # a TDS meter's ppm and ppt are mg/L and g/L (a litre weighs a kilogram;
+    # common practice), not pint's dimensionless ppm
+    ureg.define("ppm_tds = milligram / liter")
+    ureg.define("ppt_tds = gram / liter")
+    spelled = {"ppm": "ppm_tds", "ppt": "ppt_tds"}
+    for key, (disp, expr, kind) in u._UNITS.items():
+        target = "dS/m" if kind == "ec" else "mg/L"
+        want = ureg.Quantity(1.0, spelled.get(key, expr)).to(target).magnitude
+        got = u.parse_unit(disp).factor_to_dS_m
+        assert got == pytest.approx(want, rel=1e-15), disp
+    # 1 µS/cm in dS/m, the step from a TDS meter's µS/cm back to dS/m
+    assert u._UM_TO_DS_M == pytest.approx(ureg.Quantity(1, "uS/cm").to("dS/m").magnitude,
+                                          rel=1e-15)
+    assert ureg.Quantity(3, "mmho/cm").to("dS/m").magnitude == pytest.approx(3.0)   # mho = S
 
 
 def test_vectorized_1e5_matches_scalar_calls():

@@ -1,5 +1,5 @@
-"""EC and TDS units: one pint registry for the whole app, and a parser for
-what a handheld meter displays.
+"""EC and TDS units: exact SI factors, and a parser for what a handheld
+meter displays.
 
 Why this module exists: scouts type the unit exactly as the meter shows it
 ("µS", "mS/cm", "mmhos/cm", "ppm" ...). Everything downstream works in dS/m,
@@ -30,29 +30,33 @@ import re
 from dataclasses import dataclass
 
 import numpy as np
-import pint
 
 from fieldapp.science import InputError
 
 # ---------------------------------------------------------------------------
-# The one registry
+# Factors
 # ---------------------------------------------------------------------------
-ureg = pint.UnitRegistry()
-
-# pint's default registry already knows the mho (as the reciprocal ohm,
-# equal to the siemens); define it only if a future pint drops it.
-if "mho" not in ureg:  # pragma: no cover - depends on pint version
-    ureg.define("mho = siemens")
-# A TDS meter's "ppm" and "ppt" are mass concentrations that assume a litre
-# of sample weighs a kilogram (common practice); name them apart from pint's
-# dimensionless ppm so the two can never be mixed up.
-ureg.define("ppm_tds = milligram / liter")
-ureg.define("ppt_tds = gram / liter")
+# Every factor is a power of ten fixed by the SI (BIPM SI Brochure, 9th ed.
+# 2019: prefixes d = 1e-1, c = 1e-2, m = 1e-3, µ = 1e-6; the siemens is the
+# reciprocal ohm, and the mho is its old name, 1 mho = 1 S). They are written
+# here as exact numbers instead of asking a units library at import time,
+# which cost more than half a second of every start; the tests check each one
+# against pint as an independent reference.
+#
+# EC, value of one unit in dS/m:
+#   1 S/m = 10 dS/m; 1 S/cm = 100 S/m = 1000 dS/m; 1 mS/cm = 1 dS/m;
+#   1 µS/cm = 1e-3 dS/m; 1 mS/m = 1e-2 dS/m.
+# TDS, value of one unit in mg/L: a TDS meter's "ppm" is 1 mg/L and its
+# "ppt" 1 g/L = 1000 mg/L, assuming a litre of sample weighs a kilogram
+# (common practice); they are not pint's dimensionless ppm.
+_EC_dS_m = {"us/cm": 1e-3, "ms/cm": 1.0, "s/cm": 1e3, "ds/m": 1.0, "ms/m": 1e-2,
+            "s/m": 10.0, "umho/cm": 1e-3, "mmho/cm": 1.0, "mho/cm": 1e3}
+_TDS_mg_L = {"ppm": 1.0, "mg/l": 1.0, "ppt": 1e3, "g/l": 1e3}
 
 # ---------------------------------------------------------------------------
 # Spellings
 # ---------------------------------------------------------------------------
-# normalized key -> (display spelling, pint expression, kind)
+# normalized key -> (display spelling, the unit as a units library spells it, kind)
 _UNITS: dict[str, tuple[str, str, str]] = {
     "us/cm": ("µS/cm", "uS/cm", "ec"),
     "ms/cm": ("mS/cm", "mS/cm", "ec"),
@@ -129,15 +133,10 @@ class ParsedUnit:
         return self.factor_to_dS_m if self.kind == "tds" else None
 
 
-def _factor(pint_expr: str, kind: str) -> float:
-    target = "dS/m" if kind == "ec" else "mg/L"
-    return float(ureg.Quantity(1.0, pint_expr).to(target).magnitude)
-
-
-# Computed once through pint; numpy arrays are then multiplied by a float.
-_FACTORS = {key: _factor(expr, kind) for key, (_, expr, kind) in _UNITS.items()}
+_FACTORS = {**_EC_dS_m, **_TDS_mg_L}
+assert set(_FACTORS) == set(_UNITS)
 _BY_CANONICAL = {disp: key for key, (disp, _, _) in _UNITS.items()}
-_UM_TO_DS_M = float(ureg.Quantity(1.0, "uS/cm").to("dS/m").magnitude)
+_UM_TO_DS_M = _EC_dS_m["us/cm"]
 
 
 def _unknown(text: str) -> InputError:
@@ -210,8 +209,8 @@ def parse_unit(text: str) -> ParsedUnit:
 
     Notes
     -----
-    Factors come from the SI definitions via pint (BIPM SI Brochure, 9th ed.,
-    2019): prefixes d = 1e-1, m = 1e-3, µ = 1e-6; 1 mho = 1 S.
+    Factors are the SI definitions (BIPM SI Brochure, 9th ed., 2019):
+    prefixes d = 1e-1, m = 1e-3, µ = 1e-6; 1 mho = 1 S.
     """
     if isinstance(text, ParsedUnit):
         return text
@@ -272,7 +271,7 @@ def to_ec_dS_m(value, unit, tds_factor=None) -> np.ndarray:
 
     Equations
     ---------
-    EC units:  EC_dS_m = value * factor_to_dS_m  (SI definitions via pint)
+    EC units:  EC_dS_m = value * factor_to_dS_m  (SI definitions)
     TDS units: EC_µS_cm = TDS_mg_L / tds_factor, then µS/cm -> dS/m
                (the inverse of what the meter did; the factor is the
                meter's setting, common practice 0.5 to 0.7)

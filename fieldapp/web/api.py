@@ -86,21 +86,7 @@ def void_reading(rid):
 @bp.post("/readings/<rid>/correct")
 def correct_reading(rid):
     """A corrected version: a new reading that points at the one it replaces."""
-    db = get_db()
-    old = store.get_reading(db, rid)
-    if old is None:
-        raise store.StoreError("No such reading.", "uuid", 404)
-    body = _body()
-    payload = {k: old[k] for k in ("sample", "depth_cm", "value", "unit", "temp_c",
-                                   "ratio", "texture", "tds_factor", "theta_g_pct",
-                                   "matric_MPa", "meter", "replicate_group", "note",
-                                   "taken_at", "visited_by")}
-    payload["compensated"] = bool(old["compensated"])
-    payload["sp"] = old["sp_pct"]
-    payload.update(body)
-    payload["site"] = old["site"]
-    payload["supersedes"] = rid
-    row, created = records.save_reading(db, payload, _max_age())
+    row, created = records.correct_reading(get_db(), rid, _body(), _max_age())
     return jsonify(_record(row)), 201 if created else 200
 
 
@@ -108,15 +94,7 @@ def correct_reading(rid):
 def ack_flag(rid):
     """Acknowledge a flag with a note: the flag stays, the note says why it is fine."""
     body = _body()
-    code = str(body.get("code") or "").strip()
-    note = " ".join(str(body.get("note") or "").split())
-    if not code:
-        raise InputError("Say which flag (its code) you acknowledge.", "code")
-    if not note:
-        raise InputError("Add a short note saying why the flag is acceptable.", "note")
-    if len(note) > records.NOTE_MAX:
-        raise InputError(f"The note is at most {records.NOTE_MAX} characters.", "note")
-    return jsonify(store.ack_flag(get_db(), rid, code, note)), 201
+    return jsonify(records.ack_flag(get_db(), rid, body.get("code"), body.get("note"))), 201
 
 
 @bp.get("/meters")
@@ -128,29 +106,14 @@ def list_meters():
 
 @bp.post("/meters")
 def create_meter():
-    body = _body()
-    if body.get("preset") and not body.get("ranges"):
-        preset = next((p for p in meters.presets() if body["preset"] in (p["name"], p["label"])),
-                      None)
-        if preset is None:
-            raise InputError("Unknown preset; see GET /api/meters.", "preset")
-        body = {**preset, **{k: v for k, v in body.items() if k != "preset"}}
-    m = store.insert_meter(get_db(), meters.validate_meter(body))
+    m = store.insert_meter(get_db(), meters.meter_from_body(_body()))
     return jsonify(m), 201
 
 
 @bp.post("/calibrations")
 def create_calibration():
     """Check a meter against a standard; returns expected, deviation, passed."""
-    body = _body()
-    db = get_db()
-    name = body.get("meter")
-    meter = store.get_meter(db, str(name)) if name else None
-    if meter is None:
-        raise InputError("Choose a meter profile (add it on the Meters page first).", "meter")
-    check = meters.calibration_check(body, meter)
-    stored = store.insert_calibration(db, check)
-    return jsonify({**stored, "meter": meter["name"]}), 201
+    return jsonify(meters.record_check(get_db(), _body())), 201
 
 
 @bp.get("/calibrations")
@@ -169,10 +132,7 @@ def _site_attrs(body, creating: bool = False) -> dict:
     return sites.validate_settings(body, creating=creating)
 
 
-def site_dict(row) -> dict:
-    d = {k: row[k] for k in row.keys()}
-    d["kind_label"] = sites.kind_label(d.get("kind"))
-    return d
+site_dict = sites.site_dict
 
 
 @bp.get("/sites")
@@ -183,14 +143,7 @@ def list_sites():
 @bp.post("/sites")
 def create_site():
     """Set up a new site with its settings; its creation opens its history."""
-    db = get_db()
-    attrs = _site_attrs(_body(), creating=True)
-    name = store.clean_site_name(attrs.pop("name"))
-    if store.get_site(db, name, former_names=False) is not None:
-        raise store.StoreError(f"A site called {name!r} exists already.", "name", 409)
-    with store.transaction(db):
-        row = store.ensure_site(db, name, former_names=False, **attrs)
-    return jsonify(site_dict(row)), 201
+    return jsonify(sites.create_site(get_db(), _body())), 201
 
 
 @bp.get("/sites/<int:site_id>")

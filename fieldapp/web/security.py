@@ -56,6 +56,7 @@ from flask import (Blueprint, Response, abort, current_app, g, jsonify, render_t
 from flask.json.provider import DefaultJSONProvider
 
 from .. import store
+from ..lan import lan_addresses  # noqa: F401 - the addresses serve --lan shows
 
 SESSION_COOKIE = "fieldapp_device"
 SESSION_MAX_AGE_S = 400 * 24 * 3600          # the longest Chromium keeps a cookie (from memory)
@@ -260,36 +261,6 @@ class FailureLimiter:
 
 def _limiter() -> FailureLimiter:
     return current_app.extensions["fieldapp_pairing_limiter"]
-
-
-def lan_addresses() -> list[str]:
-    """This machine's IPv4 addresses other than loopback, to print and to put in
-    the QR code. Asks the operating system only; nothing is sent anywhere."""
-    found: set[str] = set()
-    try:
-        for info in socket.getaddrinfo(socket.gethostname(), None, socket.AF_INET):
-            found.add(info[4][0])
-    except OSError:
-        pass
-    try:                                     # Linux: the address of each interface
-        import fcntl
-        import struct
-        with socket.socket(socket.AF_INET, socket.SOCK_DGRAM) as s:
-            for _, name in socket.if_nameindex():
-                try:
-                    packed = fcntl.ioctl(s.fileno(), 0x8915,  # SIOCGIFADDR
-                                         struct.pack("256s", name[:15].encode()))
-                    found.add(socket.inet_ntoa(packed[20:24]))
-                except OSError:
-                    continue
-    except (ImportError, OSError, AttributeError):
-        pass
-    good = []
-    for a in found:
-        ip = ipaddress.ip_address(a)
-        if not (ip.is_loopback or ip.is_link_local or ip.is_unspecified):
-            good.append(a)
-    return sorted(good, key=lambda a: (not ipaddress.ip_address(a).is_private, a))
 
 
 def binds_to_network(host: str) -> bool:
