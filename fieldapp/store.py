@@ -320,8 +320,10 @@ def site_by_former_name(conn, name: str) -> sqlite3.Row | None:
     return conn.execute("SELECT * FROM sites WHERE id = ?", (row[0],)).fetchone()
 
 
-def list_sites(conn) -> list[sqlite3.Row]:
-    """Every site with its reading count and latest current reading."""
+def list_sites(conn, where: str = "", args=(), limit: int | None = None
+               ) -> list[sqlite3.Row]:
+    """Every site (or, with ``where``/``limit``, one page of them: see
+    :func:`sites_page`) with its reading count and latest current reading."""
     return conn.execute("""
         SELECT s.*,
                (SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id) AS n_readings,
@@ -333,13 +335,22 @@ def list_sites(conn) -> list[sqlite3.Row]:
             SELECT r.id FROM readings r JOIN reading_status st ON st.id = r.id
             WHERE r.site_id = s.id AND st.status = 'current'
             ORDER BY r.taken_at DESC, r.id DESC LIMIT 1)
-        ORDER BY s.name COLLATE NOCASE""").fetchall()
+        """ + where + """
+        ORDER BY s.name COLLATE NOCASE, s.id""" + (" LIMIT ?" if limit else ""),
+        list(args) + ([limit] if limit else [])).fetchall()
 
 
-def open_flag_counts(conn) -> dict[int, int]:
+def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
     """Per site, how many current readings carry a warning or an error that
     nobody has acknowledged yet (the sites list marks them until a correction
-    or an acknowledgement settles each)."""
+    or an acknowledgement settles each). ``site_ids``: only these sites (the
+    page of the sites list being shown)."""
+    only, args = "", []
+    if site_ids is not None:
+        site_ids = list(site_ids)
+        if not site_ids:
+            return {}
+        only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
     rows = conn.execute("""
         SELECT r.site_id, COUNT(DISTINCT r.id)
         FROM readings r
@@ -350,7 +361,8 @@ def open_flag_counts(conn) -> dict[int, int]:
           AND json_extract(f.value, '$.severity') IN ('warning', 'error')
           AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
                           AND a.code = json_extract(f.value, '$.code'))
-        GROUP BY r.site_id""").fetchall()
+          """ + only + """
+        GROUP BY r.site_id""", args).fetchall()
     return {r[0]: r[1] for r in rows}
 
 
@@ -1051,3 +1063,113 @@ def devices_paired_with(conn, code_id: int) -> int:
     """Devices a code has paired (unpaired ones included: the bound is on the code)."""
     return conn.execute("SELECT COUNT(*) FROM paired_devices WHERE code_id = ?",
                         (code_id,)).fetchone()[0]
+
+
+# ---- keyset paging (every list is paged: ``limit`` and ``after``)
+
+#: Page size when the caller names none, and the most one page may hold.
+PAGE_DEFAULT = 100
+PAGE_MAX = 500
+
+
+class PageError(StoreError):
+    """A ``limit`` or ``after`` that cannot be used (400 naming the field)."""
+
+
+def page_limit(value, default: int = PAGE_DEFAULT, most: int = PAGE_MAX) -> int:
+    """``limit`` from a query string: a whole number 1..``most``."""
+    if value is None or value == "":
+        return default
+    text = str(value).strip()
+    if not (text.isascii() and text.isdigit()) or len(text) > 6 or not 1 <= int(text) <= most:
+        raise PageError(f"limit must be a whole number from 1 to {most}.", "limit")
+    return int(text)
+
+
+def encode_cursor(*parts) -> str:
+    """A page cursor: the sort key of the last row shown, as URL-safe text."""
+    import base64
+    raw = json.dumps(list(parts), separators=(",", ":"), ensure_ascii=False)
+    return base64.urlsafe_b64encode(raw.encode("utf-8")).decode("ascii").rstrip("=")
+
+
+def decode_cursor(text, shape: tuple) -> list:
+    """The sort key in a cursor; ``shape`` gives the type of each part
+    (str or int). Anything else answers 400 (field ``after``)."""
+    import base64
+    bad = PageError("after is not a cursor this server gave (take it from the 'next' link).",
+                    "after")
+    if not isinstance(text, str) or not text or len(text) > 1000:
+        raise bad
+    try:
+        raw = base64.urlsafe_b64decode(text + "=" * (-len(text) % 4))
+        parts = json.loads(raw.decode("utf-8"))
+    except (ValueError, UnicodeDecodeError):
+        raise bad from None
+    if not isinstance(parts, list) or len(parts) != len(shape) or not all(
+            type(p) is t for p, t in zip(parts, shape)):
+        raise bad
+    return parts
+
+
+def _reading_filters(site_id, sample, date_from, date_to) -> tuple[list[str], list]:
+    where, args = [], []
+    if site_id is not None:
+        where.append("r.site_id = ?")
+        args.append(site_id)
+    if sample:
+        where.append("r.sample = ?")
+        args.append(sample)
+    if date_from:
+        where.append("r.taken_at >= ?")          # ISO text: a day's prefix sorts first
+        args.append(date_from)
+    if date_to:
+        where.append("r.taken_at < ?")
+        args.append(date_to + "\uffff")
+    return where, args
+
+
+def readings_page(conn, site_id: int | None = None, sample: str | None = None,
+                  date_from: str | None = None, date_to: str | None = None,
+                  limit: int = PAGE_DEFAULT, after: str | None = None
+                  ) -> tuple[list[sqlite3.Row], str | None]:
+    """One page of readings (every version), newest first by (taken_at, id),
+    and the cursor of the next page (None on the last one).
+
+    Keyset paging: the next page starts strictly after the last row's
+    (taken_at, id), so pages never repeat or skip a row, however many
+    readings are saved between two pages (rows are never updated or deleted,
+    so a row's key never moves). A reading saved meanwhile with a later time
+    shows on a fresh first page."""
+    where, args = _reading_filters(site_id, sample, date_from, date_to)
+    if after is not None:
+        taken, rid = decode_cursor(after, (str, int))
+        where.append("(r.taken_at, r.id) < (?, ?)")
+        args += [taken, rid]
+    # Pick the page's ids through the index first, then join for those only.
+    ids = [r[0] for r in conn.execute(
+        "SELECT r.id FROM readings r" + (" WHERE " + " AND ".join(where) if where else "")
+        + " ORDER BY r.taken_at DESC, r.id DESC LIMIT ?", args + [limit + 1])]
+    more = len(ids) > limit
+    ids = ids[:limit]
+    if not ids:
+        return [], None
+    rows = conn.execute(_READING_SELECT + f" WHERE r.id IN ({','.join('?' * len(ids))})"
+                        " ORDER BY r.taken_at DESC, r.id DESC", ids).fetchall()
+    nxt = encode_cursor(rows[-1]["taken_at"], rows[-1]["id"]) if more else None
+    return rows, nxt
+
+
+def sites_page(conn, limit: int = PAGE_DEFAULT, after: str | None = None
+               ) -> tuple[list[sqlite3.Row], str | None]:
+    """One page of :func:`list_sites` (by name, case ignored, then id) and the
+    next page's cursor."""
+    where, args = "", []
+    if after is not None:
+        name, sid = decode_cursor(after, (str, int))
+        where, args = "WHERE (s.name COLLATE NOCASE, s.id) > (?, ?)", [name, sid]
+    rows = list_sites(conn, where=where, args=args, limit=limit + 1)
+    more = len(rows) > limit
+    rows = rows[:limit]
+    nxt = encode_cursor(rows[-1]["name"], rows[-1]["id"]) if more and rows else None
+    return rows, nxt
