@@ -182,6 +182,8 @@ def cmd_serve(a) -> int:
     server = waitress.create_server(
         app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
         max_request_body_size=app.config["MAX_CONTENT_LENGTH"],
+        _dispatcher=(connections.writes_first_dispatcher(a.threads)
+                     if a.dispatch == "writes-first" else None),
         **connections.waitress_options(idle_timeout_s=a.idle_timeout))
     connections.guard(server)        # the laptop always gets a slot; caps per address
     try:
@@ -305,6 +307,9 @@ def build_parser() -> argparse.ArgumentParser:
                     help="flag readings from a meter whose last calibration check is older "
                          "than this many days (default 7)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
+    # waitress's own first-come dispatcher, for the benchmark's comparison only
+    sv.add_argument("--dispatch", choices=("writes-first", "fifo"), default="writes-first",
+                    help=argparse.SUPPRESS)
     sv.add_argument("--idle-timeout", type=int, default=30, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)
     from .backup import add_commands as add_backup_commands
