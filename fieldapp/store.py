@@ -1068,8 +1068,8 @@ def devices_paired_with(conn, code_id: int) -> int:
 # ---- keyset paging (every list is paged: ``limit`` and ``after``)
 
 #: Page size when the caller names none, and the most one page may hold.
-PAGE_DEFAULT = 100
-PAGE_MAX = 500
+PAGE_DEFAULT = 50
+PAGE_MAX = 100
 
 
 class PageError(StoreError):

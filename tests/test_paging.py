@@ -88,7 +88,7 @@ def test_page_size_default_and_bound(client, db):
     assert len({x["uuid"] for x in seen}) == store.PAGE_DEFAULT + 5
 
 
-@pytest.mark.parametrize("query", ["limit=0", "limit=-1", "limit=501", "limit=abc", "limit=1.5",
+@pytest.mark.parametrize("query", ["limit=0", "limit=-1", "limit=101", "limit=501", "limit=abc", "limit=1.5",
                                    "limit=１０", "after=xyz", "after=WzFd", "after=" + "A" * 2000,
                                    "after=" + store.encode_cursor(1, "x"), "from=yesterday"])
 def test_a_bad_limit_or_cursor_is_a_clear_400(client, query):
@@ -131,3 +131,25 @@ def test_site_log_shows_latest_page_with_older_on_demand(client, app):
     assert len(shown) + len(rest) == pages.READINGS_PER_PAGE + 21
     assert 'id="older-readings"' not in older and 'id="newest-readings"' in older
     assert client.get(f"/sites/{sid}?after=garbage").status_code == 404
+
+
+def test_long_chart_series_are_thinned_keeping_extremes_and_flags():
+    from fieldapp import interpret
+    import random
+    rng = random.Random(3)
+    pts = [{"t": f"2025-{1 + i // 2800:02d}-{1 + i // 100 % 28:02d}T{i % 24:02d}:{i % 60:02d}",
+            "y": rng.uniform(1, 5), "flagged": False, "key": str(i)} for i in range(20000)]
+    pts[777]["y"], pts[15000]["y"] = 42.0, -0.5           # the extremes
+    for i in (3, 9999, 19998):
+        pts[i]["flagged"] = True
+    out = interpret.thin_points(pts)
+    keys = {p["key"] for p in out}
+    assert len(out) <= interpret.MAX_POINTS_PER_SERIES + 5
+    assert {"777", "15000", "3", "9999", "19998"} <= keys
+    assert [p["t"] for p in out] == sorted(p["t"] for p in out)
+    # every bucket's own highest value survives: the upper envelope is kept
+    ts = sorted(pts, key=lambda p: p["t"])
+    size = -(-len(ts) // (interpret.MAX_POINTS_PER_SERIES // 2))
+    for k in range(0, len(ts), size):
+        assert max(ts[k:k + size], key=lambda p: p["y"])["key"] in keys
+    assert interpret.thin_points(pts[:50]) == pts[:50]

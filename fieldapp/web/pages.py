@@ -77,7 +77,7 @@ def sites():
 
 #: Sites on one page of the sites list, readings on one page of a site log.
 SITES_PER_PAGE = 100
-READINGS_PER_PAGE = 100
+READINGS_PER_PAGE = 50
 
 
 def _settings_meta() -> dict:
