@@ -47,6 +47,8 @@ def cmd_serve(a) -> int:
     server = waitress.create_server(
         app, host=bind, port=a.port, threads=a.threads, ident="fieldapp",
         max_request_body_size=app.config["MAX_CONTENT_LENGTH"],
+        _dispatcher=(connections.writes_first_dispatcher(a.threads)
+                     if a.dispatch == "writes-first" else None),
         **connections.waitress_options(idle_timeout_s=a.idle_timeout))
     connections.guard(server)        # the laptop always gets a slot; caps per address
     try:

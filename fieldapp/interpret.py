@@ -743,8 +743,61 @@ def _point(r: Mapping, y: float, series: str) -> dict:
             "flagged": is_flagged(r), "label": label}
 
 
+#: A chart series longer than this is thinned (see :func:`thin_points`).
+MAX_POINTS_PER_SERIES = 120
+
+
+def thin_points(points: list[dict], most: int = MAX_POINTS_PER_SERIES,
+                keep_day: str | None = None) -> list[dict]:
+    """A long series thinned for drawing, in time order, without losing what
+    matters: the time range is cut into ``most // 2`` equal-count buckets and
+    each keeps its lowest and highest point, so every extreme survives; every
+    flagged point, the first and last point and every point of ``keep_day``
+    (the visit a report is about) are kept too. Series up to ``most`` points
+    are returned whole.
+
+    >>> pts = [{"t": f"2025-01-{1 + i % 28:02d}T{i % 24:02d}", "y": float(i % 97),
+    ...         "flagged": i == 500} for i in range(2000)]
+    >>> out = thin_points(pts, 100)
+    >>> len(out) <= 103, max(p["y"] for p in out), min(p["y"] for p in out)
+    (True, 96.0, 0.0)
+    >>> any(p["flagged"] for p in out)
+    True
+    """
+    if len(points) <= most:
+        return points
+    pts = sorted(points, key=lambda p: str(p["t"]))
+    n_buckets = max(1, most // 2)
+    size = -(-len(pts) // n_buckets)
+    keep = {0, len(pts) - 1}
+    for start in range(0, len(pts), size):
+        idx = range(start, min(start + size, len(pts)))
+        keep.add(min(idx, key=lambda i: pts[i]["y"]))
+        keep.add(max(idx, key=lambda i: pts[i]["y"]))
+    keep.update(i for i, p in enumerate(pts) if p.get("flagged")
+                or (keep_day and str(p["t"])[:10] == keep_day))
+    return [pts[i] for i in sorted(keep)]
+
+
+def _thin_series(specs: list[dict], keep_day: str | None) -> list[dict]:
+    for spec in specs:
+        for ser in spec["series"]:
+            n = len(ser["points"])
+            ser["points"] = thin_points(ser["points"], keep_day=keep_day)
+            if len(ser["points"]) < n:
+                ser["thinned_from"] = n
+    return specs
+
+
 def chart_specs(site: Mapping, readings: Iterable[Mapping], targets: Iterable[Mapping] = (),
                 as_of: str | None = None, highlight: str | None = None) -> list[dict]:
+    """Trend chart data (long series thinned, every extreme and flagged point
+    kept: :func:`thin_points`); see :func:`_chart_specs`."""
+    return _thin_series(_chart_specs(site, readings, targets, as_of, highlight), highlight)
+
+
+def _chart_specs(site: Mapping, readings: Iterable[Mapping], targets: Iterable[Mapping] = (),
+                 as_of: str | None = None, highlight: str | None = None) -> list[dict]:
     """Trend chart data for a site: one chart of soil ECe by depth (salinity
     class bands, crop lines), one of solution EC at 25 °C by sample kind.
     Only current readings; each becomes one point."""

@@ -320,8 +320,10 @@ def site_by_former_name(conn, name: str) -> sqlite3.Row | None:
     return conn.execute("SELECT * FROM sites WHERE id = ?", (row[0],)).fetchone()
 
 
-def list_sites(conn) -> list[sqlite3.Row]:
-    """Every site with its reading count and latest current reading."""
+def list_sites(conn, where: str = "", args=(), limit: int | None = None
+               ) -> list[sqlite3.Row]:
+    """Every site (or, with ``where``/``limit``, one page of them: see
+    :func:`sites_page`) with its reading count and latest current reading."""
     return conn.execute("""
         SELECT s.*,
                (SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id) AS n_readings,
@@ -333,25 +335,36 @@ def list_sites(conn) -> list[sqlite3.Row]:
             SELECT r.id FROM readings r JOIN reading_status st ON st.id = r.id
             WHERE r.site_id = s.id AND st.status = 'current'
             ORDER BY r.taken_at DESC, r.id DESC LIMIT 1)
-        ORDER BY s.name COLLATE NOCASE""").fetchall()
+        """ + where + """
+        ORDER BY s.name COLLATE NOCASE, s.id""" + (" LIMIT ?" if limit else ""),
+        list(args) + ([limit] if limit else [])).fetchall()
 
 
-def open_flag_counts(conn) -> dict[int, int]:
+def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
     """Per site, how many current readings carry an error-level flag that
     nobody has acknowledged (a reading saved where the page could not check
     it: the sites list marks it until a correction or an acknowledgement
-    settles it; "Save anyway" on the page acknowledges at once)."""
+    settles it; "Save anyway" on the page acknowledges at once). ``site_ids``:
+    only these sites (the page of the sites list being shown)."""
+    only, args = "", []
+    if site_ids is not None:
+        site_ids = list(site_ids)
+        if not site_ids:
+            return {}
+        only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
     rows = conn.execute("""
         SELECT r.site_id, COUNT(DISTINCT r.id)
         FROM readings r
         JOIN json_each(r.result_json, '$.flags') f
         WHERE r.flags <> ''
+          AND instr(r.result_json, '"severity":"error"') > 0   -- cheap test before any JSON
           AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = r.id)
           AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = r.id)
           AND json_extract(f.value, '$.severity') = 'error'
           AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
                           AND a.code = json_extract(f.value, '$.code'))
-        GROUP BY r.site_id""").fetchall()
+          """ + only + """
+        GROUP BY r.site_id""", args).fetchall()
     return {r[0]: r[1] for r in rows}
 
 
@@ -1052,3 +1065,217 @@ def devices_paired_with(conn, code_id: int) -> int:
     """Devices a code has paired (unpaired ones included: the bound is on the code)."""
     return conn.execute("SELECT COUNT(*) FROM paired_devices WHERE code_id = ?",
                         (code_id,)).fetchone()[0]
+
+
+# ---- keyset paging (every list is paged: ``limit`` and ``after``)
+
+#: Page size when the caller names none, and the most one page may hold.
+PAGE_DEFAULT = 50
+PAGE_MAX = 100
+
+
+class PageError(StoreError):
+    """A ``limit`` or ``after`` that cannot be used (400 naming the field)."""
+
+
+def page_limit(value, default: int = PAGE_DEFAULT, most: int = PAGE_MAX) -> int:
+    """``limit`` from a query string: a whole number 1..``most``."""
+    if value is None or value == "":
+        return default
+    text = str(value).strip()
+    if not (text.isascii() and text.isdigit()) or len(text) > 6 or not 1 <= int(text) <= most:
+        raise PageError(f"limit must be a whole number from 1 to {most}.", "limit")
+    return int(text)
+
+
+def encode_cursor(*parts) -> str:
+    """A page cursor: the sort key of the last row shown, as URL-safe text."""
+    import base64
+    raw = json.dumps(list(parts), separators=(",", ":"), ensure_ascii=False)
+    return base64.urlsafe_b64encode(raw.encode("utf-8")).decode("ascii").rstrip("=")
+
+
+def decode_cursor(text, shape: tuple) -> list:
+    """The sort key in a cursor; ``shape`` gives the type of each part
+    (str or int). Anything else answers 400 (field ``after``)."""
+    import base64
+    bad = PageError("after is not a cursor this server gave (take it from the 'next' link).",
+                    "after")
+    if not isinstance(text, str) or not text or len(text) > 1000:
+        raise bad
+    try:
+        raw = base64.urlsafe_b64decode(text + "=" * (-len(text) % 4))
+        parts = json.loads(raw.decode("utf-8"))
+    except (ValueError, UnicodeDecodeError):
+        raise bad from None
+    if not isinstance(parts, list) or len(parts) != len(shape) or not all(
+            type(p) is t for p, t in zip(parts, shape)):
+        raise bad
+    return parts
+
+
+def _reading_filters(site_id, sample, date_from, date_to) -> tuple[list[str], list]:
+    where, args = [], []
+    if site_id is not None:
+        where.append("r.site_id = ?")
+        args.append(site_id)
+    if sample:
+        where.append("r.sample = ?")
+        args.append(sample)
+    if date_from:
+        where.append("r.taken_at >= ?")          # ISO text: a day's prefix sorts first
+        args.append(date_from)
+    if date_to:
+        where.append("r.taken_at < ?")
+        args.append(date_to + "\uffff")
+    return where, args
+
+
+def readings_page(conn, site_id: int | None = None, sample: str | None = None,
+                  date_from: str | None = None, date_to: str | None = None,
+                  limit: int = PAGE_DEFAULT, after: str | None = None
+                  ) -> tuple[list[sqlite3.Row], str | None]:
+    """One page of readings (every version), newest first by (taken_at, id),
+    and the cursor of the next page (None on the last one).
+
+    Keyset paging: the next page starts strictly after the last row's
+    (taken_at, id), so pages never repeat or skip a row, however many
+    readings are saved between two pages (rows are never updated or deleted,
+    so a row's key never moves). A reading saved meanwhile with a later time
+    shows on a fresh first page."""
+    where, args = _reading_filters(site_id, sample, date_from, date_to)
+    if after is not None:
+        taken, rid = decode_cursor(after, (str, int))
+        where.append("(r.taken_at, r.id) < (?, ?)")
+        args += [taken, rid]
+    # Pick the page's ids through the index first, then join for those only.
+    ids = [r[0] for r in conn.execute(
+        "SELECT r.id FROM readings r" + (" WHERE " + " AND ".join(where) if where else "")
+        + " ORDER BY r.taken_at DESC, r.id DESC LIMIT ?", args + [limit + 1])]
+    more = len(ids) > limit
+    ids = ids[:limit]
+    if not ids:
+        return [], None
+    rows = conn.execute(_READING_SELECT + f" WHERE r.id IN ({','.join('?' * len(ids))})"
+                        " ORDER BY r.taken_at DESC, r.id DESC", ids).fetchall()
+    nxt = encode_cursor(rows[-1]["taken_at"], rows[-1]["id"]) if more else None
+    return rows, nxt
+
+
+def sites_page(conn, limit: int = PAGE_DEFAULT, after: str | None = None
+               ) -> tuple[list[sqlite3.Row], str | None]:
+    """One page of :func:`list_sites` (by name, case ignored, then id) and the
+    next page's cursor."""
+    where, args = "", []
+    if after is not None:
+        name, sid = decode_cursor(after, (str, int))
+        where, args = "WHERE (s.name COLLATE NOCASE, s.id) > (?, ?)", [name, sid]
+    rows = list_sites(conn, where=where, args=args, limit=limit + 1)
+    more = len(rows) > limit
+    rows = rows[:limit]
+    nxt = encode_cursor(rows[-1]["name"], rows[-1]["id"]) if more and rows else None
+    return rows, nxt
+
+
+# ---- an import in chunks (schema 012; csvio.import_rows)
+
+_STAGED = ("uuid",) + INPUT_FIELDS + COMPUTED_FIELDS + ("result_json", "app_version",
+                                                       "recorded_at")
+
+
+def import_job(conn, digest: str, rows_total: int) -> dict:
+    """The job staging these rows (by digest), resumed if a killed run left
+    it, else new; jobs of other files left for a day are dropped."""
+    row = conn.execute("SELECT * FROM import_jobs WHERE digest = ?", (digest,)).fetchone()
+    if row is not None and row["rows_total"] == rows_total:
+        return dict(row)
+    if row is not None:
+        drop_import_job(conn, row["id"])
+    day_ago = (dt.datetime.now(dt.timezone.utc) - dt.timedelta(days=1)).isoformat()
+    for (old,) in conn.execute("SELECT id FROM import_jobs WHERE started_at < ?",
+                               (day_ago,)).fetchall():
+        drop_import_job(conn, old)
+    cur = conn.execute("INSERT INTO import_jobs (digest, rows_total, started_at) VALUES "
+                       "(?,?,?)", (digest, rows_total, utc_now()))
+    return dict(conn.execute("SELECT * FROM import_jobs WHERE id = ?",
+                             (cur.lastrowid,)).fetchone())
+
+
+def stage_import_rows(conn, job_id: int, first_seq: int, rows) -> None:
+    """Stage converted records ``[(depth, rec), ...]`` of a job (the caller
+    holds a short transaction); the job remembers how far it got."""
+    cols = ("job_id", "seq", "depth", "site", "visited_by", "supersedes_uuid") + _STAGED
+    vals = []
+    for i, (depth, rec) in enumerate(rows):
+        v = [job_id, first_seq + i, depth, rec["site"], rec.get("visited_by") or "",
+             rec.get("supersedes_uuid")] + [rec.get(c) for c in _STAGED]
+        v[cols.index("compensated")] = 1 if rec.get("compensated") else 0
+        v[cols.index("note")] = rec.get("note") or ""
+        v[cols.index("flags")] = rec.get("flags") or ""
+        vals.append(v)
+    conn.executemany(f"INSERT OR REPLACE INTO import_staging ({', '.join(cols)}) VALUES "
+                     f"({', '.join('?' * len(cols))})", vals)
+    conn.execute("UPDATE import_jobs SET rows_staged = ? WHERE id = ?",
+                 (first_seq + len(vals), job_id))
+
+
+def drop_import_job(conn, job_id: int) -> None:
+    conn.execute("DELETE FROM import_staging WHERE job_id = ?", (job_id,))
+    conn.execute("DELETE FROM import_jobs WHERE id = ?", (job_id,))
+
+
+def import_clashes(conn, job_id: int) -> str | None:
+    """What a save made meanwhile contradicts in a staged job, or None: a
+    staged uuid now in the log, or a staged correction of a reading that
+    was corrected or voided since the file was checked."""
+    row = conn.execute("SELECT st.uuid FROM import_staging st JOIN readings r "
+                       "ON r.uuid = st.uuid WHERE st.job_id = ? LIMIT 1", (job_id,)).fetchone()
+    if row:
+        return f"reading {row[0]} was saved meanwhile"
+    row = conn.execute(
+        "SELECT st.supersedes_uuid FROM import_staging st JOIN readings p "
+        "ON p.uuid = st.supersedes_uuid JOIN reading_status s ON s.id = p.id "
+        "WHERE st.job_id = ? AND s.status <> 'current' LIMIT 1", (job_id,)).fetchone()
+    return f"reading {row[0]} was corrected or voided meanwhile" if row else None
+
+
+def finish_import_job(conn, job_id: int) -> int:
+    """Move a job's staged rows into readings inside the caller's (short)
+    transaction: sites and visits as needed, one INSERT ... SELECT per level
+    of corrections (a correction's target is in by then). Returns how many."""
+    conn.execute("CREATE TEMP TABLE IF NOT EXISTS import_map (site TEXT, day TEXT, "
+                 "visited_by TEXT, site_id INTEGER, visit_id INTEGER, "
+                 "PRIMARY KEY (site, day, visited_by))")
+    conn.execute("DELETE FROM temp.import_map")
+    site_ids: dict[str, int] = {}
+    keys = conn.execute("SELECT DISTINCT site, substr(taken_at, 1, 10), visited_by "
+                        "FROM import_staging WHERE job_id = ?", (job_id,)).fetchall()
+    for site, day, by in keys:
+        k = site.lower()
+        if k not in site_ids:
+            site_ids[k] = ensure_site(conn, site)["id"]
+        conn.execute("INSERT INTO temp.import_map VALUES (?,?,?,?,?)",
+                     (site, day, by, site_ids[k],
+                      _visit_id(conn, site_ids[k], day, by)))
+    cols = ", ".join(_STAGED)
+    picked = ", ".join(f"st.{c}" if c != "recorded_at" else "COALESCE(st.recorded_at, ?)"
+                       for c in _STAGED)
+    top = conn.execute("SELECT MAX(depth) FROM import_staging WHERE job_id = ?",
+                       (job_id,)).fetchone()[0]
+    added = 0
+    try:
+        for d in range(0 if top is None else top + 1):
+            cur = conn.execute(
+                f"INSERT INTO readings ({cols}, site_id, visit_id, supersedes_id) "
+                f"SELECT {picked}, m.site_id, m.visit_id, "
+                "(SELECT p.id FROM readings p WHERE p.uuid = st.supersedes_uuid) "
+                "FROM import_staging st JOIN temp.import_map m ON m.site = st.site "
+                "AND m.day = substr(st.taken_at, 1, 10) AND m.visited_by = st.visited_by "
+                "WHERE st.job_id = ? AND st.depth = ? ORDER BY st.seq",
+                (utc_now(), job_id, d))
+            added += cur.rowcount
+    except sqlite3.IntegrityError as e:
+        raise StoreError(f"The file corrects one reading twice or repeats a reading ({e}).",
+                         "file", 400) from None
+    drop_import_job(conn, job_id)
+    return added

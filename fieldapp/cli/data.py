@@ -28,7 +28,10 @@ from .common import data_dir, data_option, open_log
               help="a paired tablet not seen for this many days must pair again (default 90)")
 @click.option("--threads", type=int, default=8, hidden=True)
 @click.option("--idle-timeout", type=int, default=30, hidden=True)
-def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, idle_timeout):
+@click.option("--dispatch", type=click.Choice(["writes-first", "fifo"]), default="writes-first",
+              hidden=True)   # fifo: waitress's own order, only for the benchmark's comparison
+def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, idle_timeout,
+          dispatch):
     """Start the local web app."""
     import types
 
@@ -36,7 +39,7 @@ def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, i
     return cmd_serve(types.SimpleNamespace(host=host, lan=lan, port=port, data=data, demo=demo,
                                            check_days=check_days, threads=threads,
                                            pairing_idle_days=pairing_idle_days,
-                                           idle_timeout=idle_timeout))
+                                           idle_timeout=idle_timeout, dispatch=dispatch))
 
 
 @cli.command()

@@ -62,10 +62,38 @@ def list_readings():
     site_id = None
     if request.args.get("site"):
         site_id = _site_or_404(request.args["site"])["id"]
-    rows = store.list_readings(db, site_id=site_id, sample=request.args.get("sample") or None,
-                               date_from=request.args.get("from") or None,
-                               date_to=request.args.get("to") or None)
-    return jsonify([store.reading_dict(r) for r in rows])
+    rows, nxt = store.readings_page(
+        db, site_id=site_id, sample=request.args.get("sample") or None,
+        date_from=_date(request.args.get("from"), "from"),
+        date_to=_date(request.args.get("to"), "to"),
+        limit=store.page_limit(request.args.get("limit")),
+        after=request.args.get("after") or None)
+    return _paged([store.reading_dict(r) for r in rows], nxt)
+
+
+def _date(v, field):
+    if not v:
+        return None
+    import datetime as dt
+    try:
+        dt.date.fromisoformat(v)
+    except ValueError:
+        raise InputError(f"{field} must be a date like 2026-05-14.", field) from None
+    return v
+
+
+def _paged(items: list, nxt: str | None):
+    """A page of a list: the body stays a JSON array (older callers keep
+    working); the next page, if any, is named by a ``Link: <...>; rel="next"``
+    header and by ``X-Next-Cursor`` (pass it back as ``after``)."""
+    resp = jsonify(items)
+    if nxt is not None:
+        from urllib.parse import urlencode
+        args = {k: v for k, v in request.args.items() if k != "after"}
+        args["after"] = nxt
+        resp.headers["Link"] = f'<{request.path}?{urlencode(args)}>; rel="next"'
+        resp.headers["X-Next-Cursor"] = nxt
+    return resp
 
 
 @bp.get("/readings/<rid>")
@@ -137,7 +165,9 @@ site_dict = sites.site_dict
 
 @bp.get("/sites")
 def list_sites():
-    return jsonify([site_dict(r) for r in store.list_sites(get_db())])
+    rows, nxt = store.sites_page(get_db(), limit=store.page_limit(request.args.get("limit")),
+                                 after=request.args.get("after") or None)
+    return _paged([site_dict(r) for r in rows], nxt)
 
 
 @bp.post("/sites")

@@ -4,7 +4,7 @@ from __future__ import annotations
 import datetime as dt
 
 from flask import (Blueprint, Response, abort, current_app, render_template, request,
-                   stream_with_context)
+                   stream_with_context, url_for)
 
 from .. import csvio, store
 from .. import sites as sitecfg
@@ -64,8 +64,20 @@ def service_worker():
 @bp.get("/sites")
 def sites():
     db = get_db()
-    return render_template("sites.html", sites=store.list_sites(db),
-                           kind_label=sitecfg.kind_label, to_check=store.open_flag_counts(db))
+    after = request.args.get("after") or None
+    try:
+        rows, nxt = store.sites_page(db, limit=SITES_PER_PAGE, after=after)
+    except store.PageError:
+        abort(404)
+    return render_template("sites.html", sites=rows, kind_label=sitecfg.kind_label,
+                           to_check=store.open_flag_counts(db, [s["id"] for s in rows]),
+                           next_url=nxt and url_for("pages.sites", after=nxt),
+                           first_url=after and url_for("pages.sites"))
+
+
+#: Sites on one page of the sites list, readings on one page of a site log.
+SITES_PER_PAGE = 100
+READINGS_PER_PAGE = 50
 
 
 def _settings_meta() -> dict:
@@ -102,9 +114,14 @@ def site_log(site_id):
     sample = request.args.get("sample") or None
     date_from = _date_arg("from")
     date_to = _date_arg("to")
-    rows = store.list_readings(db, site_id=site_id, sample=sample, date_from=date_from,
-                               date_to=date_to)
+    after = request.args.get("after") or None
+    try:
+        rows, nxt = store.readings_page(db, site_id=site_id, sample=sample, date_from=date_from,
+                                        date_to=date_to, limit=READINGS_PER_PAGE, after=after)
+    except store.PageError:
+        abort(404)
     readings = [store.reading_dict(r) for r in rows]
+    keep = {k: v for k, v in (("sample", sample), ("from", date_from), ("to", date_to)) if v}
     acks = store.acks_for_readings(db, [r["id"] for r in readings])
     by_uuid = {r["uuid"]: r for r in readings}
     for r in readings:
@@ -121,7 +138,11 @@ def site_log(site_id):
                            saved=request.args.get("saved") == "1",
                            summary=site_view(db, site),
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
-                           date_from=date_from or "", date_to=date_to or "")
+                           date_from=date_from or "", date_to=date_to or "",
+                           older_url=nxt and url_for("pages.site_log", site_id=site_id,
+                                                     after=nxt, **keep) + "#log",
+                           newest_url=after and url_for("pages.site_log", site_id=site_id,
+                                                        **keep) + "#log")
 
 
 def _date_arg(name):

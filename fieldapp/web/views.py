@@ -228,8 +228,15 @@ def summary_json(site_id):
     out = interpret.site_summary(site, readings, targets, as_of=as_of)
     out["charts"] = interpret.chart_specs(site, readings, targets, as_of=as_of)
     out["profile"] = interpret.profile_spec(site, readings, day=as_of)
-    out["visits"] = [dict(v) for v in store.visits_for_site(db, site_id)]
+    visits = store.visits_for_site(db, site_id)
+    out["visits"] = [dict(v) for v in visits[:SUMMARY_VISITS]]   # newest first
+    out["visits_total"] = len(visits)
     return jsonify(out)
+
+
+#: The summary API lists this many latest visits (``visits_total`` says how
+#: many there are); a report names any visit by its id.
+SUMMARY_VISITS = 50
 
 
 @bp.get("/api/targets")

@@ -1,0 +1,75 @@
+"""Benchmark: size and time of every page and API list on a large log.
+
+    .venv/bin/python tests/benchmarks/bench_pages.py [N_READINGS]
+
+Builds a log of N invented readings over 40 sites (default 200,000;
+`bench.make_log`, one executemany), starts `serve` on 127.0.0.1 and fetches
+each page and API list 3 times, printing the response size and the median
+time (loopback, so nearly all of it is server time). Floor, same server,
+same run: GET /api/readings/<uuid> (one stored reading through the same
+stack). Target from issue 12: under 250 KB and 150 ms. Figures only."""
+from __future__ import annotations
+
+import http.client
+import re
+import statistics
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+sys.path.insert(0, str(ROOT / "tests"))
+from conftest import ServerProcess            # noqa: E402
+from fieldapp import store             # noqa: E402
+import bench  # noqa: E402  (tests/benchmarks/bench.py)
+
+
+def fetch(port, path, n=3):
+    conn = http.client.HTTPConnection("127.0.0.1", port, timeout=300)
+    times, size, headers = [], 0, {}
+    for _ in range(n):
+        t = time.perf_counter()
+        conn.request("GET", path)
+        r = conn.getresponse()
+        body = r.read()
+        times.append(time.perf_counter() - t)
+        size, headers = len(body), dict(r.getheaders())
+        assert r.status == 200, (path, r.status, body[:200])
+    conn.close()
+    return statistics.median(times), size, headers, body
+
+
+def main():
+    n = int(sys.argv[1]) if len(sys.argv) > 1 else 200_000
+    with tempfile.TemporaryDirectory() as d:
+        t0 = time.perf_counter()
+        db, _ = bench.make_log(Path(d) / "log", n)
+        conn = store.connect(db)
+        uuid = conn.execute("SELECT uuid FROM readings ORDER BY id DESC LIMIT 1").fetchone()[0]
+        per_site = conn.execute("SELECT COUNT(*) FROM readings WHERE site_id = 1").fetchone()[0]
+        conn.close()
+        print(f"log of {n:,} readings over 40 sites ({per_site:,} at site 1), built in "
+              f"{time.perf_counter() - t0:.0f} s")
+        srv = ServerProcess(Path(d) / "log").start(timeout=120)
+        try:
+            ft, fs, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
+            print(f"{'floor: GET /api/readings/<uuid>':44s} {fs / 1024:8.1f} KB {ft * 1000:8.1f} ms")
+            _, _, _, page = fetch(srv.port, "/sites/1", 1)
+            older = re.search(rb'id="older-readings" rel="next" href="([^"]+)"', page)
+            paths = ["/", "/sites", "/sites/1",
+                     older.group(1).decode().replace("&amp;", "&") if older else None,
+                     "/sites/1/report", "/map", "/meters", "/api/readings",
+                     "/api/readings?site=Block%201", "/api/readings?limit=100",
+                     "/api/sites", "/api/sites/1/summary"]
+            for p in filter(None, paths):
+                t, size, h, _ = fetch(srv.port, p)
+                mark = "" if size < 250 * 1024 and t < 0.150 else "   (over target)"
+                print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms{mark}")
+        finally:
+            srv.stop()
+
+
+if __name__ == "__main__":
+    main()
