@@ -4,6 +4,7 @@
     python -m fieldapp convert-csv readings.csv > converted.csv
     python -m fieldapp serve [--host 127.0.0.1] [--port 8080] [--data DIR] [--demo]
     python -m fieldapp export [--site NAME] --data DIR > log.csv
+    python -m fieldapp export [--site NAME] --data DIR --xlsx log.xlsx
     python -m fieldapp import FILE.csv --data DIR
 
 Input that cannot be a reading exits with status 2 and one clear line on
@@ -210,6 +211,14 @@ def cmd_export(a) -> int:
             if site is None:
                 raise InputError(f"no site called {a.site!r}.", "site")
             site_id = site["id"]
+        if a.xlsx:                           # the workbook (readings, sites, sources)
+            from . import xlsx
+            report = {}
+            xlsx.export_xlsx(conn, a.xlsx, site_id, report=report)
+            if report.get("skipped"):
+                print(f"fieldapp: {report['skipped']} damaged row(s) could not be read and "
+                      "are missing from the export.", file=sys.stderr)
+            return 0
         out = open(a.output, "w", encoding="utf-8", newline="") if a.output else sys.stdout
         try:
             report: dict = {}
@@ -314,6 +323,8 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("--site", help="only this site")
     ex.add_argument("--data", help="folder of the log")
     ex.add_argument("-o", "--output", help="file to write (default: standard output)")
+    ex.add_argument("--xlsx", metavar="OUT", help="write an .xlsx workbook to OUT instead "
+                    "of CSV (readings, sites, sources)")
     ex.set_defaults(func=cmd_export)
 
     im = sub.add_parser("import", help="merge a CSV export into the log (same uuid = same reading)")
