@@ -33,6 +33,15 @@ COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", 
            "replicate_group", "note", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
            "psi_s_method", "flags", "status", "void_reason", "voided_at", "supersedes_uuid",
            "uuid", "visited_by", "recorded_at", "app_version", "flag_acks")
+#: Columns for a person reading the file in a spreadsheet, after the machine
+#: columns above (which import reads back; these it ignores): the ratio as a
+#: number and as text no spreadsheet reads as a time, the local date-time a
+#: spreadsheet reads as a date (the offset stays in taken_at), and plain words
+#: beside the codes (fieldapp/labels.py).
+READABLE_COLUMNS = ("ratio_water_parts", "ratio_text", "taken_local", "flag_labels",
+                    "ece_method_label", "psi_s_method_label", "sample_label")
+#: The export's header: the machine columns, then the readable ones.
+EXPORT_COLUMNS = COLUMNS + READABLE_COLUMNS
 NUMERIC = {"depth_cm", "value", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa",
            "ec25_dS_m", "ece_dS_m", "psi_s_MPa"}
 #: Characters that make a spreadsheet read a cell as a formula (OWASP CSV
@@ -78,22 +87,47 @@ def _formula_like(s: str) -> bool:
     return False
 
 
+#: Text a spreadsheet opening the CSV with default settings turns into a number,
+#: a date or a time and writes back changed: 1:5 -> 01:05:00 AM, 3/4 -> 03/04/26,
+#: 007 -> 7, 1e5 -> 1.00E+05, 2026-08-03 -> a date. Checked with LibreOffice
+#: Calc 7 (en-US import); only digits, separators and an am/pm or exponent.
+_CONVERTIBLE_RE = re.compile(r"[\s\d:/.,%-]*\d[\s\d:/.,%-]*(?:[eE][+-]?\d+)?\s*(?:[aApP]\.?[mM]\.?)?\s*")
+#: Number text a spreadsheet keeps as it was typed.
+_PLAIN_DECIMAL_RE = re.compile(r"(?:0|[1-9]\d{0,14})(?:\.\d*[1-9])?")
+
+
+def _spreadsheet_converts(s: str) -> bool:
+    """True for text a spreadsheet would read as a number, date or time and so
+    write back in another form (the ratio 1:5 becoming the time 01:05)."""
+    if len(s) > 60 or not _CONVERTIBLE_RE.fullmatch(s):
+        return False
+    return not _PLAIN_DECIMAL_RE.fullmatch(s)
+
+
+def _needs_prefix(s: str) -> bool:
+    return s[:1] == "'" or _formula_like(s) or _spreadsheet_converts(s)
+
+
 def neutralize(text) -> str:
     """Prefix with an apostrophe text a spreadsheet would treat as a formula
-    (also behind invisible leading characters), and text that starts with an
-    apostrophe itself, so that :func:`unneutralize` gives back exactly what
-    was typed: ``'=1+1`` exports as ``''=1+1`` and imports as ``'=1+1``."""
+    (also behind invisible leading characters), text it would turn into a
+    number, date or time (a ratio ``1:5`` exports as ``'1:5``, kept as text
+    by a spreadsheet, where ``1:5`` becomes the time 01:05), and text that
+    starts with an apostrophe itself, so that :func:`unneutralize` gives back
+    exactly what was typed: ``'=1+1`` exports as ``''=1+1`` and imports as
+    ``'=1+1``."""
     if text is None:
         return ""
     s = str(text)
-    return "'" + s if s[:1] == "'" or _formula_like(s) else s
+    return "'" + s if _needs_prefix(s) else s
 
 
 def unneutralize(text: str) -> str:
-    """The inverse of :func:`neutralize` on every text it produced."""
+    """The inverse of :func:`neutralize` on every text it produced (and on
+    files of earlier versions, which prefixed formulas only)."""
     if text.startswith("'"):
         rest = text[1:]
-        if rest[:1] == "'" or _formula_like(rest):
+        if _needs_prefix(rest):
             return rest
     return text
 
@@ -113,6 +147,12 @@ def _parse_acks(cell: str) -> list[tuple[str, str]]:
     return out
 
 
+def _version_cell(v) -> str:
+    """app_version: a spreadsheet keeps 0.1.0 as text; only a formula is prefixed."""
+    s = "" if v is None else str(v)
+    return "'" + s if s[:1] == "'" or _formula_like(s) else s
+
+
 def _yes_no(v) -> str:
     return "yes" if v else "no"
 
@@ -125,16 +165,18 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
     ``report["skipped"]`` counts the ids that could not be read."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\r\n")
-    w.writerow(COLUMNS)
+    w.writerow(EXPORT_COLUMNS)
     yield BOM + buf.getvalue()
     try:
         acked = store.acked_reading_ids(conn)
     except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
         acked = set()
-    formatters = [plain_number if c in NUMERIC else _yes_no if c == "compensated" else neutralize
+    formatters = [plain_number if c in NUMERIC else _yes_no if c == "compensated"
+                  else _version_cell if c == "app_version" else neutralize
                   for c in COLUMNS[:-1]]          # the last column, flag_acks, is built apart
     idx = None
     pending = 0
+    readable = ReadableCells()
     buf.seek(0)
     buf.truncate()
     for row in store.iter_readings_keyset(conn, site_id=site_id, report=report):
@@ -145,6 +187,7 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
         cells = [f(row[i]) for f, i in zip(formatters, idx)]
         rid = row[id_pos]
         cells.append(neutralize(_acks_cell(_acks_or_none(conn, rid))) if rid in acked else "")
+        cells.extend(readable(row))
         w.writerow(cells)
         pending += 1
         if pending >= rows_per_piece:
@@ -154,6 +197,63 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
             pending = 0
     if pending:
         yield buf.getvalue()
+
+
+class ReadableCells:
+    """The cells of :data:`READABLE_COLUMNS` for one stored row. Labels and
+    ratios repeat across a log, so each distinct text is worked out once."""
+
+    def __init__(self):
+        self._ratio: dict[str, tuple[str, str]] = {}
+        self._labels: dict[tuple[str, str], str] = {}
+
+    def ratio(self, text) -> tuple[float | None, str]:
+        """(water parts N, "1 to N") of a stored ratio text; (None, "") if none."""
+        if not text:
+            return None, ""
+        got = self._ratio.get(text)
+        if got is None:
+            from .science.extracts import parse_ratio
+            try:
+                n = parse_ratio(text)
+                got = (n, "1 to " + plain_number(n))
+            except InputError:
+                got = (None, "")
+            self._ratio[text] = got
+        return got
+
+    def label(self, kind: str, key) -> str:
+        if not key:
+            return ""
+        k = (kind, str(key))
+        got = self._labels.get(k)
+        if got is None:
+            from . import labels
+            if kind == "flags":
+                got = "; ".join(labels.flag_label(c) for c in str(key).split(";") if c)
+            else:
+                got = getattr(labels, kind)(key)
+            self._labels[k] = got
+        return got
+
+    @staticmethod
+    def local_time(taken_at):
+        """taken_at's wall-clock time at its own offset, as a datetime (None if
+        unreadable)."""
+        import datetime as dt
+        try:
+            return dt.datetime.fromisoformat(str(taken_at)).replace(tzinfo=None)
+        except (TypeError, ValueError):
+            return None
+
+    def __call__(self, row) -> list[str]:
+        n, text = self.ratio(row["ratio"])
+        t = self.local_time(row["taken_at"])
+        return [plain_number(n), text, t.strftime("%Y-%m-%d %H:%M:%S") if t else "",
+                neutralize(self.label("flags", row["flags"])),
+                neutralize(self.label("method_label", row["ece_method"])),
+                neutralize(self.label("route_label", row["psi_s_method"])),
+                neutralize(self.label("sample_label", row["sample"]))]
 
 
 def _acks_or_none(conn, rid: int) -> list[dict]:
@@ -258,6 +358,7 @@ def read_export(src: IO[str]) -> list[dict]:
         raise ImportError_("The file is empty; choose a fieldapp log export.", "file") from None
     except csv.Error as e:
         raise ImportError_(f"This is not a CSV file ({e}).", "file") from None
+    header, reader = _after_spreadsheet(header, reader)
     missing = [c for c in COLUMNS if c not in header]
     if missing:
         raise ImportError_("This is not a fieldapp log export: missing columns "
@@ -293,6 +394,23 @@ def read_export(src: IO[str]) -> list[dict]:
         raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
                            "file") from None
     return rows
+
+
+def _after_spreadsheet(header: list[str], reader) -> tuple[list[str], Iterator[list[str]]]:
+    """The header and rows with what a spreadsheet did on open and save undone
+    (:func:`fieldapp.roundtrip.restore`), or refused naming the columns that
+    can no longer be trusted."""
+    from . import roundtrip
+    try:
+        body = list(reader)
+    except csv.Error as e:
+        raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
+                           "file") from None
+    try:
+        header, body = roundtrip.restore(header, body, NUMERIC)
+    except roundtrip.Untrusted as e:
+        raise ImportError_(f"{e} Nothing was imported.", e.columns[0]) from None
+    return header, iter(body)
 
 
 IMPORT_CHUNK = 2000

@@ -4,7 +4,8 @@
 #   bash tests/run.sh -k units   # extra arguments go to pytest
 # Makes a virtual environment in .venv, installs fieldapp with its test extras
 # (pytest, playwright, hypothesis and the reference libraries used as oracles),
-# and, when run as root on Debian/Ubuntu, Debian's chromium for browser tests.
+# and, when run as root on Debian/Ubuntu, Debian's chromium for browser tests and
+# libreoffice-calc for the spreadsheet tests.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 PY=${PYTHON:-python3}
@@ -31,6 +32,17 @@ if [ ! -x "$CHROMIUM" ]; then
   else
     echo "tests/run.sh: no Chromium at $CHROMIUM. The browser tests will be skipped." >&2
     echo "  Install it with 'sudo apt-get install chromium' (Debian) or point FIELDAPP_CHROMIUM at a Chromium binary." >&2
+  fi
+fi
+
+if ! command -v soffice >/dev/null; then
+  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null; then
+    echo "tests/run.sh: installing Debian's libreoffice-calc for the spreadsheet tests" >&2
+    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
+      --no-install-recommends libreoffice-calc >/dev/null
+  else
+    echo "tests/run.sh: no LibreOffice (soffice). The spreadsheet round-trip tests will be skipped." >&2
+    echo "  Install it with 'sudo apt-get install --no-install-recommends libreoffice-calc' (Debian)." >&2
   fi
 fi
 

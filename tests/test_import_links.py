@@ -59,7 +59,7 @@ def rows_of(text):
 
 def as_text(rows):
     buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=csvio.COLUMNS, lineterminator="\r\n")
+    w = csv.DictWriter(buf, fieldnames=csvio.EXPORT_COLUMNS, lineterminator="\r\n")
     w.writeheader()
     w.writerows(rows)
     return buf.getvalue()

@@ -46,8 +46,10 @@ def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, i
 @click.option("--site", help="only this site")
 @data_option
 @click.option("-o", "--output", help="file to write (default: standard output)")
-def export(site, data, output):
-    """Write the log (or one site) as CSV."""
+@click.option("--xlsx", metavar="OUT", help="write an .xlsx workbook to OUT instead of CSV "
+              "(readings, sites, sources)")
+def export(site, data, output, xlsx):
+    """Write the log (or one site) as CSV, or as a workbook with --xlsx."""
     from pathlib import Path
 
     from .. import csvio, store
@@ -63,6 +65,14 @@ def export(site, data, output):
     conn = store.connect_readonly(db_path)
     try:
         site_id = site_or_fail(conn, site)["id"] if site else None
+        if xlsx:                           # the workbook (readings, sites, sources)
+            from .. import xlsx as workbook
+            report: dict = {}
+            workbook.export_xlsx(conn, xlsx, site_id, report=report)
+            if report.get("skipped"):
+                click.echo(f"fieldapp: {report['skipped']} damaged row(s) could not be read "
+                           "and are missing from the export.", err=True)
+            return 0
         out = open(output, "w", encoding="utf-8", newline="") if output else sys.stdout
         try:
             report: dict = {}

@@ -182,6 +182,40 @@ def export_csv():
                     headers={"Content-Disposition": f'attachment; filename="{filename}"'})
 
 
+@bp.get("/export.xlsx")
+def export_xlsx():
+    """The log (or ?site=NAME) as a workbook: readings, sites, sources. The
+    workbook is built in a temporary file (write-only mode, memory flat) and
+    sent from there."""
+    import tempfile
+    from flask import send_file
+    from .. import xlsx
+    db = get_db()
+    site_id = None
+    name = request.args.get("site")
+    filename = "fieldapp-log.xlsx"
+    if name:
+        site = store.get_site(db, store.clean_site_name(name))
+        if site is None:
+            raise store.StoreError(f"No site called {name!r}.", "site", 404)
+        site_id = site["id"]
+        safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
+        filename = f"fieldapp-{safe}.xlsx"
+    from . import open_read_connection
+    conn = open_read_connection()
+    tmp = tempfile.TemporaryFile()
+    try:
+        xlsx.export_xlsx(conn, tmp, site_id)
+    except BaseException:
+        tmp.close()
+        raise
+    finally:
+        conn.close()
+    tmp.seek(0)
+    return send_file(tmp, as_attachment=True, download_name=filename,
+                     mimetype="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+
+
 def db_path():
     from flask import current_app
     return current_app.config["DATABASE"]
