@@ -174,6 +174,10 @@ def cmd_serve(a) -> int:
         print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
     print(f"fieldapp {__import__('fieldapp').__version__}: log in {app.config['DATABASE']}",
           flush=True)
+    https = None
+    if lan and a.https_port:     # --- https for tablets: one call into fieldapp/tls.py ---
+        from . import tls
+        https = tls.start_https(app, bind, a.https_port, _data_dir(a), a.tls_name)
     if lan:
         print("\n".join(start_lan(app, bind, a.port)), flush=True)
     print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
@@ -188,6 +192,9 @@ def cmd_serve(a) -> int:
         server.run()
     except KeyboardInterrupt:
         pass
+    finally:
+        if https is not None:
+            https.stop()
     return 0
 
 
@@ -304,6 +311,13 @@ def build_parser() -> argparse.ArgumentParser:
     sv.add_argument("--check-days", type=float, default=7.0,
                     help="flag readings from a meter whose last calibration check is older "
                          "than this many days (default 7)")
+    # --- https for tablets (fieldapp/tls.py) ---
+    sv.add_argument("--https-port", type=int, default=8443,
+                    help="with --lan, also serve https on this port for tablets that "
+                         "installed this log's certificate (default 8443; 0: no https)")
+    sv.add_argument("--tls-name", action="append", default=[],
+                    help="another name or address the https certificate must carry "
+                         "(may be repeated)")
     sv.add_argument("--threads", type=int, default=8, help=argparse.SUPPRESS)
     sv.add_argument("--idle-timeout", type=int, default=30, help=argparse.SUPPRESS)
     sv.set_defaults(func=cmd_serve)

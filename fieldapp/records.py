@@ -215,8 +215,10 @@ def build_record(payload: dict, site=None, conn=None,
     }
 
 
-def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS):
-    """Validate, convert and store; returns (row, created)."""
+def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS,
+                 device_id: int | None = None):
+    """Validate, convert and store; returns (row, created). ``device_id``: the
+    paired tablet that sent it, kept beside the reading in the same transaction."""
     check_fields(payload)
     site = None
     if payload.get("site"):
@@ -237,6 +239,8 @@ def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS
     confirmed = _confirmed_codes(payload, rec)
     with store.transaction(conn):   # the reading and "saved anyway" notes, together
         row, created = store.insert_reading(conn, rec)
+        if created and device_id is not None:
+            store.note_reading_device(conn, row["id"], device_id)
         if created and confirmed:
             who = rec.get("visited_by") or "the scout"
             for code in confirmed:
