@@ -32,8 +32,10 @@
   integers and turns a too-deeply nested body into a plain 400, so no hostile
   body reaches the code as something it cannot handle.
 
-The connection itself is plain HTTP: on a hotspot, use one with a password
-(WPA2 or better) so that nobody outside the crew can listen in.
+The plain http address is not encrypted: on a hotspot, use one with a password
+(WPA2 or better) so that nobody outside the crew can listen in. ``serve --lan``
+also serves https (``fieldapp/tls.py``) for tablets that installed the log
+folder's CA certificate (``/pair/ca.crt``, open without pairing).
 """
 from __future__ import annotations
 
