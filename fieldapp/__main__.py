@@ -39,6 +39,10 @@ def cmd_serve(a) -> int:
         print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
     print(f"fieldapp {__import__('fieldapp').__version__}: log in {app.config['DATABASE']}",
           flush=True)
+    https = None
+    if lan and a.https_port:     # --- https for tablets: one call into fieldapp/tls.py ---
+        from . import tls
+        https = tls.start_https(app, bind, a.https_port, _data_dir(a), a.tls_name)
     if lan:
         print("\n".join(start_lan(app, bind, a.port)), flush=True)
     print(f"Open http://localhost:{a.port}/ in a browser on this machine (Ctrl+C stops).",
@@ -55,6 +59,9 @@ def cmd_serve(a) -> int:
         server.run()
     except KeyboardInterrupt:
         pass
+    finally:
+        if https is not None:
+            https.stop()
     return 0
 
 

@@ -215,8 +215,10 @@ def build_record(payload: dict, site=None, conn=None,
     }
 
 
-def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS):
-    """Validate, convert and store; returns (row, created)."""
+def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS,
+                 device_id: int | None = None):
+    """Validate, convert and store; returns (row, created). ``device_id``: the
+    paired tablet that sent it, kept beside the reading in the same transaction."""
     check_fields(payload)
     site = None
     if payload.get("site"):
@@ -237,6 +239,8 @@ def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS
     confirmed = _confirmed_codes(payload, rec)
     with store.transaction(conn):   # the reading and "saved anyway" notes, together
         row, created = store.insert_reading(conn, rec)
+        if created and device_id is not None:
+            store.note_reading_device(conn, row["id"], device_id)
         if created and confirmed:
             who = rec.get("visited_by") or "the scout"
             for code in confirmed:
@@ -251,7 +255,7 @@ CORRECTION_CARRIED = ("sample", "depth_cm", "value", "unit", "temp_c", "ratio", 
 
 
 def correct_reading(conn, uuid: str, changes: dict,
-                    max_age_days: float = DEFAULT_MAX_AGE_DAYS):
+                    max_age_days: float = DEFAULT_MAX_AGE_DAYS, device_id: int | None = None):
     """A corrected version of reading ``uuid``: a new reading that points at
     the one it replaces, with the old values except those in ``changes`` (same
     site; same time unless changed on purpose). Returns (row, created)."""
@@ -266,7 +270,7 @@ def correct_reading(conn, uuid: str, changes: dict,
     payload.update(changes)
     payload["site"] = old["site"]
     payload["supersedes"] = uuid
-    return save_reading(conn, payload, max_age_days)
+    return save_reading(conn, payload, max_age_days, device_id)
 
 
 def ack_flag(conn, uuid: str, code, note) -> dict:

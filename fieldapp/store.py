@@ -834,6 +834,19 @@ def list_devices(conn) -> list[sqlite3.Row]:
                         "paired_at DESC").fetchall()
 
 
+def note_reading_device(conn, reading_id: int, device_id: int) -> None:
+    """Remember which paired tablet sent a new reading (schema/012_reading_devices.sql)."""
+    with transaction(conn):
+        conn.execute("INSERT OR IGNORE INTO reading_devices (reading_id, device_id) "
+                     "VALUES (?, ?)", (reading_id, device_id))
+
+
+def device_reading_counts(conn) -> dict[int, int]:
+    """device id -> how many readings (versions included) it sent."""
+    return {r[0]: r[1] for r in conn.execute(
+        "SELECT device_id, COUNT(*) FROM reading_devices GROUP BY device_id")}
+
+
 def revoke_devices(conn, device_id: int | None = None) -> int:
     """Unpair one device, or every paired device; returns how many."""
     with transaction(conn):

@@ -43,12 +43,26 @@
       sign + p(Math.floor(off / 60)) + ":" + p(off % 60);
   }
 
+  // " since 10:42" (the oldest reading still waiting; a date when not today)
+  function waitingSince() {
+    var oldest = null;
+    load(KEY).forEach(function (x) {
+      var t = Date.parse(x._queued_at || x.taken_at);
+      if (!isNaN(t) && (oldest === null || t < oldest)) oldest = t;
+    });
+    if (oldest === null) return " to be sent";
+    var d = new Date(oldest), now = new Date();
+    function p(v) { return (v < 10 ? "0" : "") + v; }
+    var day = d.toDateString() === now.toDateString() ? "" : d.getFullYear() + "-" + p(d.getMonth() + 1) + "-" + p(d.getDate()) + " ";
+    return " since " + day + p(d.getHours()) + ":" + p(d.getMinutes());
+  }
+
   function notify() {
     var n = load(KEY).length, r = load(REFUSED).length;
     var badge = document.getElementById("outbox-badge");
     if (badge) {
       var parts = [];
-      if (n) parts.push(n + (n === 1 ? " reading waits" : " readings wait") + " to be sent");
+      if (n) parts.push(n + (n === 1 ? " reading waits" : " readings wait") + waitingSince());
       if (r) parts.push(r + " refused");
       var good = !parts.length && sentNote && Date.now() < sentNote.until;
       badge.textContent = good ? sentNote.text : parts.join(" · ");
@@ -62,6 +76,7 @@
     var items = load(KEY);
     if (!reading.uuid) reading.uuid = newId();
     if (!reading.taken_at) reading.taken_at = localIso(new Date());
+    if (!reading._queued_at) reading._queued_at = localIso(new Date());   // device-only
     items.push(reading);
     store(KEY, items);   // on disk in the browser before anything is sent
     notify();

@@ -4,7 +4,7 @@
  * in the outbox (outbox.js) until the server answers.
  * Browsers allow service workers on https and on localhost only; on a plain
  * http LAN address the outbox still keeps readings, but a reload needs the
- * server. */
+ * server. serve --lan therefore also serves https (fieldapp/tls.py). */
 "use strict";
 var CACHE = "fieldapp-v3";
 var SHELL = ["/", "/static/style.css", "/static/outbox.js", "/static/entry.js", "/static/site.js",

@@ -46,4 +46,15 @@ if ! command -v soffice >/dev/null; then
   fi
 fi
 
+# certutil (Debian's libnss3-tools) builds the NSS database through which the
+# https browser test makes Chromium trust the log folder's certificate authority.
+if ! command -v certutil >/dev/null; then
+  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null; then
+    echo "tests/run.sh: installing Debian's libnss3-tools (certutil) for the https browser test" >&2
+    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq libnss3-tools >/dev/null
+  else
+    echo "tests/run.sh: no certutil; the https browser test will be skipped (sudo apt-get install libnss3-tools)." >&2
+  fi
+fi
+
 exec .venv/bin/python -m pytest -q "$@"

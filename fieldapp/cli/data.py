@@ -30,8 +30,13 @@ from .common import data_dir, data_option, open_log
 @click.option("--idle-timeout", type=int, default=30, hidden=True)
 @click.option("--dispatch", type=click.Choice(["writes-first", "fifo"]), default="writes-first",
               hidden=True)   # fifo: waitress's own order, only for the benchmark's comparison
+@click.option("--https-port", type=int, default=8443, show_default=True,
+              help="with --lan, also serve https on this port for tablets that installed this "
+                   "log's certificate (0: no https)")
+@click.option("--tls-name", multiple=True,
+              help="another name or address the https certificate must carry (repeatable)")
 def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, idle_timeout,
-          dispatch):
+          dispatch, https_port, tls_name):
     """Start the local web app."""
     import types
 
@@ -39,7 +44,8 @@ def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, i
     return cmd_serve(types.SimpleNamespace(host=host, lan=lan, port=port, data=data, demo=demo,
                                            check_days=check_days, threads=threads,
                                            pairing_idle_days=pairing_idle_days,
-                                           idle_timeout=idle_timeout, dispatch=dispatch))
+                                           idle_timeout=idle_timeout, dispatch=dispatch,
+                                           https_port=https_port, tls_name=list(tls_name)))
 
 
 @cli.command()

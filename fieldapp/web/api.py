@@ -1,7 +1,7 @@
 """The JSON API the page uses; tests and other tools rely on these names."""
 from __future__ import annotations
 
-from flask import Blueprint, current_app, jsonify, request
+from flask import Blueprint, current_app, g, jsonify, request
 
 from .. import labels, meters, records, sites, store
 from ..science import InputError, extracts, osmotic, tolerance, units
@@ -45,8 +45,14 @@ def preview():
 @bp.post("/readings")
 def save_reading():
     """Store a reading; the same uuid again returns the stored record (200)."""
-    row, created = records.save_reading(get_db(), _body(), _max_age())
+    row, created = records.save_reading(get_db(), _body(), _max_age(), _device_id())
     return jsonify(_record(row)), 201 if created else 200
+
+
+def _device_id():
+    """The paired tablet sending this request (serve --lan), or None."""
+    device = g.get("device")
+    return device["id"] if device is not None else None
 
 
 def _record(row) -> dict:
@@ -114,7 +120,7 @@ def void_reading(rid):
 @bp.post("/readings/<rid>/correct")
 def correct_reading(rid):
     """A corrected version: a new reading that points at the one it replaces."""
-    row, created = records.correct_reading(get_db(), rid, _body(), _max_age())
+    row, created = records.correct_reading(get_db(), rid, _body(), _max_age(), _device_id())
     return jsonify(_record(row)), 201 if created else 200
 
 

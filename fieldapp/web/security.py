@@ -32,8 +32,10 @@
   integers and turns a too-deeply nested body into a plain 400, so no hostile
   body reaches the code as something it cannot handle.
 
-The connection itself is plain HTTP: on a hotspot, use one with a password
-(WPA2 or better) so that nobody outside the crew can listen in.
+The plain http address is not encrypted: on a hotspot, use one with a password
+(WPA2 or better) so that nobody outside the crew can listen in. ``serve --lan``
+also serves https (``fieldapp/tls.py``) for tablets that installed the log
+folder's CA certificate (``/pair/ca.crt``, open without pairing).
 """
 from __future__ import annotations
 
@@ -94,8 +96,10 @@ SECURITY_HEADERS = {
 }
 UNSAFE_METHODS = {"POST", "PUT", "PATCH", "DELETE"}
 #: What an unpaired device may load: the pairing page and its two files.
+#: The CA certificate carries no data (a public key and a name) and must be
+#: installed before the https address can be trusted, so it is open too.
 OPEN_PATHS = {("GET", "/pair"), ("POST", "/pair"), ("GET", "/static/pair.js"),
-              ("GET", "/static/style.css")}
+              ("GET", "/static/style.css"), ("GET", "/pair/ca.crt")}
 
 bp = Blueprint("pairing", __name__)
 
@@ -278,6 +282,9 @@ def start_lan(app, host: str, port: int) -> list[str]:
     addrs = [host] if host not in ("0.0.0.0", "::", "") else lan_addresses()
     urls = [f"http://{a}:{port}" for a in addrs]
     app.config["LAN_URLS"] = urls
+    https_port = app.config.get("HTTPS_PORT")     # set by tls.start_https, if running
+    secure = [f"https://{a}:{https_port}" for a in addrs] if https_port else []
+    app.config["LAN_HTTPS_URLS"] = secure
     conn = store.connect(app.config["DATABASE"], upgrade=False)
     try:
         code = current_code(conn, create=True)
@@ -288,10 +295,20 @@ def start_lan(app, host: str, port: int) -> list[str]:
              f"  code   {shown}   (valid until {code['expires_at'][:16].replace('T', ' ')} UTC)"]
     for u in urls or [f"http://<this laptop's address>:{port}"]:
         lines.append(f"  open   {u}/pair")
+    if https_port:
+        lines.append("  once a tablet has installed this log's certificate (it works offline then,")
+        lines.append("  also after a reload):")
+        for u in urls:
+            lines.append(f"  1. certificate  {u}/pair/ca.crt")
+        lines.append(f"     fingerprint  {app.config.get('CA_FINGERPRINT', '')}")
+        for u in secure or [f"https://<this laptop's address>:{https_port}"]:
+            lines.append(f"  2. open         {u}/pair")
     lines.append(f"  manage codes and tablets on this laptop: http://localhost:{port}/pair/devices")
-    lines.append("  Use a hotspot with a password: the connection itself is not encrypted.")
-    if urls and sys.stdout.isatty():
-        lines.append(qr.to_text(qr.encode(f"{urls[0]}/pair#{shown}", "M")))
+    if not https_port:
+        lines.append("  Use a hotspot with a password: the connection itself is not encrypted.")
+    target = (secure or urls or [None])[0]
+    if target and sys.stdout.isatty():
+        lines.append(qr.to_text(qr.encode(f"{target}/pair#{shown}", "M")))
     return lines
 
 
@@ -422,7 +439,7 @@ def _not_paired():
         resp = jsonify(error=msg, field=None, pair="/pair")
     else:
         resp = Response(render_template("pair.html", mode="pair", lan=True, paired=None,
-                                        next=_return_path()),
+                                        next=_return_path(), tls=_tls_for_tablet()),
                         mimetype="text/html")
     resp.status_code = 401
     resp.headers["WWW-Authenticate"] = 'FieldPairing realm="fieldapp"'
@@ -448,6 +465,19 @@ def _device_label(row) -> str:
     return row["label"] or f"device {row['id']}"
 
 
+def _tls_for_tablet() -> dict | None:
+    """What the pairing page says about https: None when the laptop serves no
+    https; else whether this page came over https, the https address of this
+    same page and the CA's fingerprint to compare."""
+    port = current_app.config.get("HTTPS_PORT")
+    if not port:
+        return None
+    name = _host_name(request.host)
+    host = f"[{name}]" if ":" in name else name
+    return {"secure": request.is_secure, "url": f"https://{host}:{port}/pair",
+            "fingerprint": current_app.config.get("CA_FINGERPRINT", "")}
+
+
 @bp.get("/pair")
 def pair_page():
     lan = bool(current_app.config.get("LAN"))
@@ -455,7 +485,21 @@ def pair_page():
     if lan:
         paired = _paired_device()
     return render_template("pair.html", mode="pair", lan=lan, paired=paired,
-                           laptop=is_laptop(), next="/")
+                           laptop=is_laptop(), next="/", tls=_tls_for_tablet())
+
+
+@bp.get("/pair/ca.crt")
+def ca_certificate():
+    """The log folder's CA certificate (DER), for a tablet to install once.
+    Open without pairing: it holds a public key and a name, no data."""
+    if not current_app.config.get("HTTPS_PORT"):
+        return jsonify(error="This laptop serves no https, so there is no certificate to "
+                             "install. Start it with serve --lan.", field=None), 404
+    from .. import tls
+    resp = Response(tls.ca_der(current_app.config["DATA_DIR"]),
+                    mimetype="application/x-x509-ca-cert")
+    resp.headers["Content-Disposition"] = 'attachment; filename="fieldapp-ca.crt"'
+    return resp
 
 
 @bp.post("/pair")
@@ -533,11 +577,26 @@ def _admin_state() -> dict:
             qrs.append({"url": target,
                         "svg": qr.to_svg(qr.encode(target, "M"), label=f"QR code of {target}",
                                          px=240)})
+    secure = current_app.config.get("LAN_HTTPS_URLS") or []
+    if code:
+        for u in secure:
+            target = f"{u}/pair#{shown}"
+            qrs.insert(0, {"url": target, "secure": True,
+                           "svg": qr.to_svg(qr.encode(target, "M"),
+                                            label=f"QR code of {target}", px=240)})
+    ca_qrs = [{"url": f"{u}/pair/ca.crt",
+               "svg": qr.to_svg(qr.encode(f"{u}/pair/ca.crt", "M"),
+                                label=f"QR code of {u}/pair/ca.crt", px=200)}
+              for u in (urls if secure else [])]
+    counts = store.device_reading_counts(db)
     devices = [{"id": d["id"], "label": _device_label(d), "user_agent": d["user_agent"],
                 "address": d["address"], "paired_at": d["paired_at"],
-                "last_seen_at": d["last_seen_at"], "revoked_at": d["revoked_at"]}
+                "last_seen_at": d["last_seen_at"], "revoked_at": d["revoked_at"],
+                "readings": counts.get(d["id"], 0)}
                for d in store.list_devices(db)]
     return {"lan": bool(current_app.config.get("LAN")), "urls": urls,
+            "https_urls": secure, "ca_qrs": ca_qrs,
+            "fingerprint": current_app.config.get("CA_FINGERPRINT"),
             "code": shown, "code_id": code["id"] if code else None,
             "expires_at": code["expires_at"] if code else None,
             "qrs": qrs, "devices": devices}
@@ -554,6 +613,7 @@ def devices_state():
     _laptop_only()
     st = _admin_state()
     st.pop("qrs")
+    st.pop("ca_qrs")
     return jsonify(st)
 
 
