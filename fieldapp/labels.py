@@ -43,7 +43,7 @@ FLAG_LABELS: dict[str, str] = {
 PSI_ROUTE_LABELS: dict[str, str] = {
     "handbook60": "USDA Handbook 60 (0.36 atm per dS/m)",
     "rule_004": "rule of thumb, −0.04 MPa per dS/m",
-    "nacl_pitzer": "as sodium chloride, Pitzer model",
+    "nacl_pitzer": "sodium chloride equivalent (Pitzer model)",
 }
 
 #: Severity in words (the page shows a word, never only a colour).

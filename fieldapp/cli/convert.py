@@ -23,8 +23,9 @@ def _fmt(x, unit="", digits=3):
 
 def format_result(r: dict) -> str:
     """The readable form of a conversion result for a terminal."""
+    from ..labels import flag_label, method_label, route_label, sample_label
     inp = r["input"]
-    lines = [f"Reading        {inp['value']:g} {inp['unit']}  ({inp['sample']}"
+    lines = [f"Reading        {inp['value']:g} {inp['unit']}  ({sample_label(inp['sample'])}"
              + (f", ratio {inp['ratio']}" if inp["ratio"] else "") + ")"]
     if r["unit_note"]:
         lines.append(f"               note: {r['unit_note']}")
@@ -35,17 +36,19 @@ def format_result(r: dict) -> str:
                  f"  = {_fmt(r['ec25_uS_cm'], 'µS/cm', 4)}  ({temp})")
     if r["ece_dS_m"] is not None:
         unc = r["ece_uncertainty_pct"]
-        lines.append(f"ECe            {_fmt(r['ece_dS_m'], 'dS/m')}  by {r['ece_method']}"
+        lines.append(f"ECe            {_fmt(r['ece_dS_m'], 'dS/m')}  by {method_label(r['ece_method'])}"
                      + (f" (about ±{unc:g} %)" if unc else ""))
         if r.get("ece_note"):
             lines.append(f"               {r['ece_note']}")
     if r["soil_class"]:
-        lines.append(f"Soil class     {r['soil_class']}")
+        lines.append(f"Soil class     {r['soil_class'].replace('_', ' ')}")
     if r["water_hazard"]:
-        lines.append(f"Water hazard   {r['water_hazard']} (FAO 29 degree of restriction)")
+        lines.append(f"Water hazard   {r['water_hazard'].replace('_', ' ')} "
+                     "(FAO 29 degree of restriction)")
     if r["psi_s_MPa"] is not None:
-        lines.append(f"Solute pot.    {_fmt(r['psi_s_MPa'], 'MPa')}  by {r['psi_s_method']}")
-        others = ", ".join(f"{k} {_fmt(v, 'MPa')}" for k, v in r["psi_s_by_method"].items())
+        lines.append(f"Solute pot.    {_fmt(r['psi_s_MPa'], 'MPa')}  by {route_label(r['psi_s_method'])}")
+        others = "; ".join(f"{route_label(k)} {_fmt(v, 'MPa') if v is not None else 'not computed'}"
+                           for k, v in r["psi_s_by_method"].items())
         lines.append(f"               all routes: {others}")
         if r.get("salinity_pss78") is not None:
             lines.append(f"Salinity       {r['salinity_pss78']:.3g} (PSS-78 practical salinity; "
@@ -79,7 +82,8 @@ def format_result(r: dict) -> str:
             lines.append("Leaching req.  " + ("not reachable with this water" if lr is None
                                               else f"{lr:.2f} of the water applied"))
     for f in r["flags"]:
-        lines.append(f"[{f['severity']}] {f['code']}: {f['message']} {f['action']}".rstrip())
+        lines.append(f"[{f['severity']}] {flag_label(f['code'])} ({f['code']}): {f['message']} "
+                     f"{f['action']}".rstrip())
     lines.append("")
     lines.extend(f"Caution: {c}" for c in r["cautions"])
     return "\n".join(lines)
