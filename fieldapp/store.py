@@ -679,19 +679,7 @@ def list_readings(conn, site_id: int | None = None, sample: str | None = None,
 def iter_readings(conn, site_id=None, sample=None, date_from=None, date_to=None,
                   newest_first=False) -> Iterator[sqlite3.Row]:
     """Stream readings (every version) without loading them all into memory."""
-    where, args = [], []
-    if site_id is not None:
-        where.append("r.site_id = ?")
-        args.append(site_id)
-    if sample:
-        where.append("r.sample = ?")
-        args.append(sample)
-    if date_from:
-        where.append("substr(r.taken_at, 1, 10) >= ?")
-        args.append(date_from)
-    if date_to:
-        where.append("substr(r.taken_at, 1, 10) <= ?")
-        args.append(date_to)
+    where, args = _reading_filters(site_id, sample, date_from, date_to)
     sql = _READING_SELECT + (" WHERE " + " AND ".join(where) if where else "")
     sql += " ORDER BY r.taken_at DESC, r.id DESC" if newest_first else " ORDER BY r.id"
     cur = conn.execute(sql, args)

@@ -155,19 +155,22 @@ def _date_arg(name):
     return v
 
 
+def _export_target(ext: str) -> tuple[int | None, str]:
+    """The site an export is for (``?site=NAME``, or the whole log) and the
+    download's file name."""
+    name = request.args.get("site")
+    if not name:
+        return None, f"fieldapp-log.{ext}"
+    site = store.get_site(get_db(), store.clean_site_name(name))
+    if site is None:
+        raise store.StoreError(f"No site called {name!r}.", "site", 404)
+    safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
+    return site["id"], f"fieldapp-{safe}.{ext}"
+
+
 @bp.get("/export.csv")
 def export_csv():
-    db = get_db()
-    site_id = None
-    name = request.args.get("site")
-    filename = "fieldapp-log.csv"
-    if name:
-        site = store.get_site(db, store.clean_site_name(name))
-        if site is None:
-            raise store.StoreError(f"No site called {name!r}.", "site", 404)
-        site_id = site["id"]
-        safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
-        filename = f"fieldapp-{safe}.csv"
+    site_id, filename = _export_target("csv")
     # The generator keeps its own connection: the request's one closes at teardown.
     from . import open_read_connection
     conn = open_read_connection()
@@ -190,17 +193,7 @@ def export_xlsx():
     import tempfile
     from flask import send_file
     from .. import xlsx
-    db = get_db()
-    site_id = None
-    name = request.args.get("site")
-    filename = "fieldapp-log.xlsx"
-    if name:
-        site = store.get_site(db, store.clean_site_name(name))
-        if site is None:
-            raise store.StoreError(f"No site called {name!r}.", "site", 404)
-        site_id = site["id"]
-        safe = "".join(c if c.isalnum() else "-" for c in site["name"]).strip("-") or "site"
-        filename = f"fieldapp-{safe}.xlsx"
+    site_id, filename = _export_target("xlsx")
     from . import open_read_connection
     conn = open_read_connection()
     tmp = tempfile.TemporaryFile()
