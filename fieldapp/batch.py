@@ -1,7 +1,8 @@
 """Convert a CSV file of readings in chunks: the engine behind `convert-csv`.
 
 Rows are read in chunks, each chunk is converted by the same vectorized core
-as a single reading (science.convert.convert_batch), and written out before
+as a single reading (science.convert.convert_batch); cells are read by
+fieldapp.forms, and written out before
 the next chunk is read, so memory stays flat however long the file is.
 """
 from __future__ import annotations
@@ -13,6 +14,7 @@ from typing import Iterable, Iterator, TextIO
 
 import numpy as np
 
+from . import forms
 from .science import InputError, convert, extracts
 
 #: Input columns convert-csv understands; only value and unit are required.
@@ -37,7 +39,7 @@ def _cell_number(cell: str, line: int, field: str) -> float:
     if cell is None or cell.strip() == "":
         return math.nan
     try:
-        x = convert.parse_number(cell, field)
+        x = forms.parse_number(cell, field)
     except InputError as e:
         raise RowError(f"line {line}: {e.message}", field) from None
     return math.nan if x is None else x
@@ -82,9 +84,9 @@ def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
         cols["ece_method"][i] = (r.get("ece_method") or "").strip() or None
         cols["crop"][i] = (r.get("crop") or "").strip() or None
         cols["salt_type"][i] = _parsed(salt_cache, (r.get("salt_type") or "").strip(),
-                                       convert.parse_salt_type, line, "salt_type")
+                                       forms.parse_salt_type, line, "salt_type")
         ratio = (r.get("ratio") or "").strip()
-        nums["ratio_n"][i] = (_parsed(ratio_cache, ratio, extracts.parse_ratio, line, "ratio")
+        nums["ratio_n"][i] = (_parsed(ratio_cache, ratio, forms.parse_ratio, line, "ratio")
                               if ratio else math.nan)
         nums["temp_c"][i] = _cell_number(r.get("temp_c"), line, "temp_c")
         nums["sp_pct"][i] = _cell_number(r.get("sp"), line, "sp")
@@ -92,7 +94,7 @@ def _chunk_to_batch(rows: list[dict], first_line: int) -> convert.Batch:
         nums["theta_g_pct"][i] = _cell_number(r.get("theta_g_pct"), line, "theta_g_pct")
         nums["matric_MPa"][i] = _cell_number(r.get("matric_MPa"), line, "matric_MPa")
         try:
-            comp[i] = convert.parse_bool(r.get("compensated"))
+            comp[i] = forms.parse_bool(r.get("compensated"))
         except InputError as e:
             raise RowError(f"line {line}: {e.message}", "compensated") from None
     from .science import tolerance, units

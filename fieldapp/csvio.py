@@ -213,7 +213,7 @@ class ReadableCells:
             return None, ""
         got = self._ratio.get(text)
         if got is None:
-            from .science.extracts import parse_ratio
+            from .forms import parse_ratio
             try:
                 n = parse_ratio(text)
                 got = (n, "1 to " + plain_number(n))
@@ -285,7 +285,7 @@ def _num(cell: str, line: int, col: str):
     if cell == "":
         return None
     from .records import FIELD_TEXT_MAX, check_number_text
-    from .science.convert import parse_number
+    from .forms import parse_number
     if len(cell) > FIELD_TEXT_MAX:
         raise ImportError_(f"line {line}: {col} is {len(cell)} characters long; that is "
                            "not a number.", col)
@@ -616,7 +616,7 @@ def _import_job(conn, order: list[dict]) -> dict:
 
 def _convert_chunk(chunk: list[dict]) -> list[dict]:
     from .records import build_record, check_fields
-    from .science.convert import RowInputError, convert_readings
+    from .records import RowInputError, convert_readings
     payloads = [_payload(r) for r in chunk]
     for r, p in zip(chunk, payloads):
         try:

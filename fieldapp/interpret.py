@@ -23,8 +23,9 @@ from collections import defaultdict
 from typing import Iterable, Mapping
 
 from .science import InputError, extracts, osmotic, tolerance
-from .science.convert import CAUTIONS as CONVERT_CAUTIONS
-from .science.convert import crop_summary, parse_number, round_sig
+from .forms import parse_number, parse_ratio
+from .results import CAUTIONS as CONVERT_CAUTIONS
+from .results import crop_summary, round_sig
 
 SOIL_KINDS = ("paste", "extract")
 #: Solutions drawn on the second trend chart, in legend order.
@@ -544,7 +545,7 @@ def substrate_tests(cur: list[Mapping], targets: Mapping[str, Mapping] | None = 
         level = None
         if kind == "media":
             try:
-                n = extracts.parse_ratio(r.get("ratio") or "1:2")
+                n = parse_ratio(r.get("ratio") or "1:2")
             except InputError:
                 n = None
             if n is None or abs(n - 2.0) > 0.01:

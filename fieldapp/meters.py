@@ -15,7 +15,7 @@ import statistics
 from . import store
 from .data import load_table
 from .science import InputError, temperature, units
-from .science.convert import parse_number
+from .forms import parse_number
 
 #: Default tolerance of a calibration check, % of the expected value. Common
 #: practice: pocket meters state about ±2 %; a check off by more than 5 % means

@@ -2,7 +2,7 @@
 
 Validation and conversion happen here, once, for the web API and the command
 line alike: the preview and the stored row come from the same call to
-``science.convert.convert_reading``.
+:func:`convert_reading` (forms -> science -> results).
 """
 from __future__ import annotations
 
@@ -12,8 +12,12 @@ import re
 import uuid as uuidlib
 
 from . import __version__, store
+import numpy as np
+
+from .forms import parse_number, validate_reading
+from .results import result_for_row
 from .science import InputError
-from .science.convert import convert_reading, parse_number
+from .science.convert import convert_batch, make_batch
 
 NOTE_MAX = 2000
 DEFAULT_MAX_AGE_DAYS = 7.0   # see meters.DEFAULT_MAX_AGE_DAYS
@@ -121,6 +125,54 @@ def _short_text(d: dict, key: str, limit: int = SHORT_TEXT_MAX) -> str | None:
     if len(v) > limit:
         raise InputError(f"{key} is at most {limit} characters.", key)
     return v or None
+
+
+# --------------------------------------------------------------------------
+# The one conversion call: typed fields -> validated -> computed -> result.
+
+def convert_reading(d: dict, context: dict | None = None) -> dict:
+    """Validate and convert one reading; the JSON shape of `convert --json`,
+    `POST /api/preview` and the stored row: forms.validate_reading, then
+    science.convert.convert_batch, then results.result_for_row. ``context`` holds the optional
+    context columns (meter, calibration, history, replicates) or a callable
+    taking the validated fields and returning them."""
+    kw = validate_reading(d)
+    if callable(context):
+        context = context(kw)
+    out = convert_batch(make_batch(**kw, context=context))
+    return result_for_row(out, 0, kw)
+
+
+class RowInputError(InputError):
+    """An InputError of one reading in a list; ``index`` says which."""
+
+    def __init__(self, message, field, index):
+        super().__init__(message, field)
+        self.index = index
+
+
+def convert_readings(ds: list[dict]) -> list[dict]:
+    """Validate and convert many readings in one vectorized pass; the same
+    result dicts as :func:`convert_reading` (no context columns). Raises
+    RowInputError naming the index of the first reading that cannot be one."""
+    kws = []
+    for i, d in enumerate(ds):
+        try:
+            kws.append(validate_reading(d))
+        except InputError as e:
+            raise RowInputError(e.message, e.field, i) from None
+    if not kws:
+        return []
+    cols = {k: [kw[k] for kw in kws] for k in kws[0]}
+    floats = ("ratio_n", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa")
+    for k in floats:
+        cols[k] = np.array([np.nan if v is None else v for v in cols[k]], dtype=float)
+    for k in ("unit", "sample", "texture", "ece_method", "crop", "salt_type"):
+        arr = np.empty(len(kws), dtype=object)
+        arr[:] = cols[k]
+        cols[k] = arr
+    out = convert_batch(make_batch(**cols))
+    return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
 
 
 def _context(conn, payload, site, max_age_days):

@@ -113,7 +113,7 @@ def restore(header: list[str], rows: list[list[str]], numeric: set[str],
     parts_i = pos.get("ratio_water_parts")
     time_idx = [(c, pos[c]) for c in TIME_COLUMNS if c in pos]
     from .science import InputError
-    from .science.extracts import parse_ratio
+    from .forms import parse_ratio
     for k, cells in enumerate(rows):
         line = first_line + k
         if not cells or cells == [""]:

@@ -13,7 +13,7 @@ import math
 from typing import Mapping
 
 from .science import InputError, extracts, tolerance
-from .science.convert import parse_number
+from .forms import parse_number
 
 #: Stable keys (API, CSV, database) and the plain label shown on screen.
 #: 'field' and 'greenhouse' are the kinds stored before this list grew.

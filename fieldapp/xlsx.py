@@ -12,7 +12,7 @@ Three sheets:
 - **Sources**: every method key and data table the exported readings and
   sites use, with its readable source (``labels.readable_source``: a value
   nobody has checked against its published table says "unverified"), and
-  the usual cautions (``science.convert.CAUTIONS``).
+  the usual cautions (``results.CAUTIONS``).
 
 The workbook is streamed: rows go from the keyset read of the log straight
 to openpyxl's write-only sheets (which keep rows in temporary files), so
@@ -198,7 +198,7 @@ def export_xlsx(conn, out: IO[bytes] | str, site_id: int | None = None,
     {"readings": n, "sites": n}. On a damaged log every readable row is
     written and ``report["skipped"]`` counts the rest (as the CSV export)."""
     from openpyxl import Workbook
-    from .science.convert import CAUTIONS
+    from .results import CAUTIONS
     from .science import extracts, tolerance
     from .sites import kind_label
     wb = Workbook(write_only=True)

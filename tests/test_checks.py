@@ -9,7 +9,8 @@ import datetime as dt
 
 import pytest
 
-from fieldapp.science.convert import convert_reading, meter_context
+from fieldapp.forms import meter_context
+from fieldapp.records import convert_reading
 
 
 def codes(reading, context=None):

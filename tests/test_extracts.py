@@ -8,6 +8,7 @@ import pytest
 from hypothesis import given, strategies as st
 
 from fieldapp.science import InputError
+from fieldapp import forms
 from fieldapp.science import extracts as ex
 
 
@@ -38,7 +39,7 @@ def test_sample_kind_keys_and_soil_flags():
     ("1/5", 5.0), ("1:1", 1.0), ("2:10", 5.0), ("1 to 2", 2.0), ("1:100", 100.0), (" 1:2 ", 2.0),
 ])
 def test_parse_ratio_good(text, n):
-    assert ex.parse_ratio(text) == pytest.approx(n)
+    assert forms.parse_ratio(text) == pytest.approx(n)
 
 
 @pytest.mark.parametrize("text", ["abc", "0", "1:0", "0:5", "", None, "-5", "1:5000",
@@ -48,17 +49,17 @@ def test_parse_ratio_good(text, n):
                                   "1" * 16000, "1:2,,5", "to", ":"])
 def test_parse_ratio_bad(text):
     with pytest.raises(InputError) as e:
-        ex.parse_ratio(text)
+        forms.parse_ratio(text)
     assert e.value.field == "ratio"
     assert "1:" in e.value.message  # says what to type instead
 
 
 def test_parse_ratio_swapped_suggests_the_right_way_round():
     with pytest.raises(InputError) as e:
-        ex.parse_ratio("5:1")
+        forms.parse_ratio("5:1")
     assert "1:5" in e.value.message and e.value.field == "ratio"
     with pytest.raises(InputError) as e:
-        ex.parse_ratio("2.5:1")
+        forms.parse_ratio("2.5:1")
     assert "1:2.5" in e.value.message
 
 
@@ -367,7 +368,7 @@ def test_no_ece_below_the_extracts_own_ec(ratio, texture):
         return
     assert np.all(est.ece_dS_m >= ec)
     for name, reg in ex.REGRESSIONS.items():
-        if not ex._same_ratio(reg.ratio_n, ex.parse_ratio(ratio)):
+        if not ex._same_ratio(reg.ratio_n, forms.parse_ratio(ratio)):
             continue
         kw = {"sp_pct": 40.0} if reg.form == "sp_factor" else {}
         out = ex.estimate_ece(ec, "extract", ratio_n=ratio, method=name, **kw)

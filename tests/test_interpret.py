@@ -11,7 +11,7 @@ import pytest
 
 from fieldapp import interpret
 from fieldapp.science import InputError, osmotic
-from fieldapp.science.convert import convert_reading
+from fieldapp.records import convert_reading
 
 _ids = itertools.count(1)
 

@@ -316,7 +316,7 @@ def test_workbook_cell_by_cell_against_the_log(log, app, db):
         assert s["ece_method"] is None or s["ece_method"] in names
         assert s["psi_s_method"] in names
     assert "clay loam" in names and "loam" in names       # the texture table rows used
-    from fieldapp.science.convert import CAUTIONS
+    from fieldapp.results import CAUTIONS
     for text in CAUTIONS:
         assert text in flat
     assert any(row[4] == "unverified" for row in sources)  # textures SP ranges unverified

@@ -143,7 +143,8 @@ def convert(value, unit, sample, ratio, temp, compensated, sp, texture, method, 
             matric, water_content, tds_factor, meter_range, resolution, fmt):
     """Convert one reading (VALUE UNIT as the meter shows them) and print
     everything derived: EC at 25 °C, ECe, solute potential, crop, flags."""
-    from ..science.convert import convert_reading, meter_context, parse_meter_range, parse_number
+    from ..forms import meter_context, parse_meter_range, parse_number
+    from ..records import convert_reading
     lo = hi = res = None
     if meter_range:
         lo, hi = parse_meter_range(meter_range)

@@ -1,9 +1,11 @@
 """The one path from a reading as the meter displayed it to every derived number.
 
-The command line (`convert`, `convert-csv`), the live preview and the stored
-row all call :func:`convert_batch`; :func:`convert_reading` is the same path
-for a single reading and returns a JSON-ready dict. Nothing here touches disk
-or the network.
+The command line (`convert`, `convert-csv`), the live preview, the stored
+row and the import all call :func:`convert_batch` on column arrays of
+validated values (typed text is read by :mod:`fieldapp.forms`; the JSON-ready
+result of one row is shaped by :mod:`fieldapp.results`;
+:func:`fieldapp.records.convert_reading` chains the three for one reading).
+Nothing here touches disk or the network.
 
 Steps, in order (each a documented function in its own module):
 
@@ -23,17 +25,6 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import InputError, checks, extracts, osmotic, temperature, tolerance, units
-
-#: Shown wherever results are shown: the estimates can drive costly decisions.
-CAUTIONS = (
-    "These figures are estimates from a field meter and published approximations, "
-    "not a laboratory analysis.",
-    "Before costly decisions (reclamation, leaching, changing the crop or the feed) "
-    "confirm with a laboratory analysis and ask your local extension service or a "
-    "licensed advisor; local codes and rules come first.",
-    "Handle calibration solutions and soil samples with gloves and clean hands; keep "
-    "standards away from food and children.",
-)
 
 #: Sample kinds whose own solution is what the plant roots see (or its nearest proxy).
 _SOLUTION_KINDS = {"water", "feed", "leachate", "drain", "sme"}
@@ -187,49 +178,73 @@ def _groups(*cols):
         yield tuple(values[k][code_arrays[k][i]] for k in range(len(cols))), rows
 
 
-def _nan_to_none(x):
-    return None if x is None or (isinstance(x, float) and math.isnan(x)) else x
-
-
 def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     """Convert every reading of a batch; returns a dict of equal-length columns.
+
+    The steps of the module docstring, each a short function below, in order:
+    :func:`_check_values`, :func:`_unit_step`, :func:`_temperature_step`,
+    :func:`_ece_step`, :func:`_solute_step` (with :func:`_sea_salt_step`),
+    :func:`_soil_solution_step`, :func:`_crop_step`, then the flag rules.
 
     Raises :class:`InputError` for input that cannot be a reading (unknown unit,
     TDS without factor, unknown texture or crop, regression for another ratio).
     Doubtful values never raise: they come back with flags.
     """
-    n = len(b)
-    if n and not np.all(np.isfinite(b.value)):
+    _check_values(b)
+    c = _unit_step(b)
+    c.update(_temperature_step(b, c["ec_dS_m"]))
+    c.update(_ece_step(b, c["ec25_dS_m"]))
+    c.update(_solute_step(b, c))
+    c.update(_soil_solution_step(b, c["ece_dS_m"]))
+    c.update(_crop_step(b, c["ece_dS_m"], c["ec25_dS_m"]))
+    out = _columns(b, c)
+    out["flags"] = checks.reading_flags(out)
+    return out
+
+
+def _check_values(b: Batch) -> None:
+    """Refuse what cannot be a reading: NaN, infinity, a negative EC."""
+    if len(b) and not np.all(np.isfinite(b.value)):
         raise InputError("The reading must be a number (no NaN or infinity).", "value")
-    if n and np.any(b.value < 0):
+    if len(b) and np.any(b.value < 0):
         raise InputError("EC cannot be negative; type the number the meter shows.", "value")
 
-    # 1. units -> EC in dS/m at sample temperature
-    ec_dS_m = np.empty(n)
-    unit_canonical = np.empty(n, dtype=object)
-    unit_kind = np.empty(n, dtype=object)
-    unit_note = np.empty(n, dtype=object)
+
+def _is_soil(b: Batch) -> np.ndarray:
+    return np.isin(b.sample, ["paste", "extract"])
+
+
+def _unit_step(b: Batch) -> dict:
+    """1. The unit as displayed -> EC in dS/m at the sample temperature (units)."""
+    n = len(b)
+    c = {"ec_dS_m": np.empty(n), "unit_canonical": np.empty(n, dtype=object),
+         "unit_kind": np.empty(n, dtype=object), "unit_note": np.empty(n, dtype=object)}
     for (u, f), rows in _groups(b.unit, b.tds_factor):
         pu = units.parse_unit(u if u is not None else "")
         factor = None if (f is None or math.isnan(f)) else f
-        ec_dS_m[rows] = units.to_ec_dS_m(b.value[rows], pu, tds_factor=factor)
-        unit_canonical[rows] = pu.canonical
-        unit_kind[rows] = pu.kind
-        unit_note[rows] = pu.note
+        c["ec_dS_m"][rows] = units.to_ec_dS_m(b.value[rows], pu, tds_factor=factor)
+        c["unit_canonical"][rows] = pu.canonical
+        c["unit_kind"][rows] = pu.kind
+        c["unit_note"][rows] = pu.note
+    return c
 
-    # 2. temperature -> EC at 25 °C
+
+def _temperature_step(b: Batch, ec_dS_m: np.ndarray) -> dict:
+    """2. Sample temperature -> EC at 25 °C, the method used and the factor (temperature)."""
     ec25 = temperature.to_25(ec_dS_m, b.temp_c, b.compensated)
-    temp_method = temperature.applied_method(b.temp_c, b.compensated).astype(object)
     with np.errstate(divide="ignore", invalid="ignore"):
         comp_factor = np.where(ec_dS_m > 0, ec25 / ec_dS_m, np.nan)
+    return {"ec25_dS_m": ec25, "compensation_factor": comp_factor,
+            "temp_method": temperature.applied_method(b.temp_c, b.compensated).astype(object)}
 
-    # 3. ECe
-    ece = np.full(n, np.nan)
-    ece_method = np.full(n, None, dtype=object)
-    ece_unc = np.full(n, np.nan)
-    ece_note = np.full(n, None, dtype=object)
-    ece_basis = np.full(n, None, dtype=object)
-    ece_oor = np.zeros(n, dtype=bool)
+
+def _ece_step(b: Batch, ec25: np.ndarray) -> dict:
+    """3. Sample kind, ratio, SP or texture -> ECe with its method and uncertainty (extracts)."""
+    n = len(b)
+    c = {"ece_dS_m": np.full(n, np.nan), "ece_method": np.full(n, None, dtype=object),
+         "ece_uncertainty_pct": np.full(n, np.nan),
+         "ece_uncertainty_basis": np.full(n, None, dtype=object),
+         "ece_note": np.full(n, None, dtype=object), "ece_out_of_range": np.zeros(n, dtype=bool)}
     for (kind, r, sp, tex, meth), rows in _groups(b.sample, b.ratio_n, b.sp_pct,
                                                   b.texture, b.ece_method):
         if kind not in extracts.SAMPLE_KINDS:
@@ -241,21 +256,26 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
             ratio_n=None if math.isnan(r) else r,
             sp_pct=None if math.isnan(sp) else sp,
             texture=tex or None, method=meth or None)
-        ece[rows] = est.ece_dS_m
+        c["ece_dS_m"][rows] = est.ece_dS_m
         pr = est.per_row()
-        ece_method[rows] = pr["method"]
-        ece_unc[rows] = pr["uncertainty_pct"]
+        c["ece_method"][rows] = pr["method"]
+        c["ece_uncertainty_pct"][rows] = pr["uncertainty_pct"]
         if est.method is not None:
-            ece_note[rows] = pr["note"]
-            ece_basis[rows] = pr["basis"]
-        ece_oor[rows] = pr["out_of_range"]
+            c["ece_note"][rows] = pr["note"]
+            c["ece_uncertainty_basis"][rows] = pr["basis"]
+        c["ece_out_of_range"][rows] = pr["out_of_range"]
+    return c
 
-    # 4. solute potential of the solution that matters: ECe for soil, the
-    #    sample itself for waters, feeds, leachates and saturated media extracts.
+
+def _solute_step(b: Batch, c: dict) -> dict:
+    """4. Solute potential of the solution that matters, by every route (osmotic):
+    ECe for soil, the sample itself for waters, feeds, leachates and saturated
+    media extracts; the default route, Handbook 60 where it is out of range,
+    the seawater route where the user says so."""
     t_soln = np.where(np.isnan(b.temp_c), 25.0, b.temp_c)
-    is_soil = np.isin(b.sample, ["paste", "extract"])
     is_solution = np.isin(b.sample, list(_SOLUTION_KINDS))
-    basis = np.where(is_soil, ece, np.where(is_solution, ec25, np.nan))
+    basis = np.where(_is_soil(b), c["ece_dS_m"],
+                     np.where(is_solution, c["ec25_dS_m"], np.nan))
     routes = osmotic.psi_s_all_routes(basis, t_soln)
     psi_default = routes[osmotic.DEFAULT_ROUTE]
     fallback = "handbook60"
@@ -263,12 +283,21 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
     psi_s = np.where(use_fb, routes[fallback], psi_default)
     psi_method = np.where(np.isnan(psi_s), None,
                           np.where(use_fb, fallback, osmotic.DEFAULT_ROUTE)).astype(object)
+    salinity, psi_sea, salt = _sea_salt_step(b, c["ec_dS_m"], basis, t_soln, is_solution)
+    ok = ~np.isnan(psi_sea)
+    psi_s[ok] = psi_sea[ok]
+    psi_method[ok] = osmotic.SEAWATER_ROUTE
+    return {"psi_s_MPa": psi_s, "psi_s_method": psi_method, "routes": routes,
+            "psi_sea": psi_sea, "salinity_pss78": salinity, "salt_type": salt}
 
-    # 4b. sea-salt water: PSS-78 salinity and the seawater route, beside the
-    #     NaCl route, only where the user says the water is sea-salt-like.
-    #     A solution read without compensation at a known temperature goes
-    #     into PSS-78 as read (the scale's own temperature correction);
-    #     otherwise its value at 25 °C.
+
+def _sea_salt_step(b: Batch, ec_dS_m, basis, t_soln, is_solution):
+    """4b. Sea-salt water: PSS-78 salinity and the seawater route, beside the
+    NaCl route, only where the user says the water is sea-salt-like. A
+    solution read without compensation at a known temperature goes into
+    PSS-78 as read (the scale's own temperature correction); otherwise its
+    value at 25 °C. Returns (salinity, psi_s by the seawater route, salt_type)."""
+    n = len(b)
     salinity = np.full(n, np.nan)
     psi_sea = np.full(n, np.nan)
     salt = b.salt_type if b.salt_type is not None else np.full(n, None, dtype=object)
@@ -279,98 +308,86 @@ def convert_batch(b: Batch) -> dict[str, np.ndarray]:
         t_in = np.where(raw, b.temp_c[sea], 25.0)
         salinity[sea] = osmotic.practical_salinity_pss78(c_in, t_in)
         psi_sea[sea] = osmotic.psi_s_seawater(c_in, t_soln[sea], t_in)
-        ok = sea[~np.isnan(psi_sea[sea])]
-        psi_s[ok] = psi_sea[ok]
-        psi_method[ok] = osmotic.SEAWATER_ROUTE
+    return salinity, psi_sea, salt
 
-    # 5. soil solution (soil kinds only; computed on those rows alone)
-    ec_fc = np.full(n, np.nan)
-    psi_fc = np.full(n, np.nan)
-    ec_sw = np.full(n, np.nan)
-    psi_sw = np.full(n, np.nan)
-    sp_used_all = np.full(n, np.nan)
-    soil = np.flatnonzero(is_soil)
+
+def _soil_solution_step(b: Batch, ece: np.ndarray) -> dict:
+    """5. ECe -> soil solution at field capacity and at the measured moisture,
+    total water potential and the margin to wilting (osmotic); soil kinds only."""
+    n = len(b)
+    c = {k: np.full(n, np.nan) for k in ("ec_fc_dS_m", "psi_s_fc_MPa", "ec_sw_dS_m",
+                                         "psi_s_sw_MPa", "sp_used_pct")}
+    soil = np.flatnonzero(_is_soil(b))
     if soil.size:
+        t_soil = np.where(np.isnan(b.temp_c[soil]), 25.0, b.temp_c[soil])
         sp_used = b.sp_pct[soil].copy()
         for (tex,), rows in _groups(b.texture[soil]):
             if tex:
                 sp_used[rows] = np.where(np.isnan(sp_used[rows]),
                                          extracts.sp_for_texture(tex), sp_used[rows])
-        ec_fc[soil] = osmotic.soil_solution_ec_at_field_capacity(ece[soil])
-        psi_fc[soil] = _psi_best(ec_fc[soil], t_soln[soil])
-        ec_sw[soil] = osmotic.soil_solution_ec(ece[soil], sp_used, b.theta_g_pct[soil])
-        psi_sw[soil] = _psi_best(ec_sw[soil], t_soln[soil])
-        sp_used_all[soil] = sp_used
-    psi_root = np.where(np.isnan(psi_sw), psi_fc, psi_sw)
-    psi_total = osmotic.total_water_potential(psi_root, b.matric_MPa)
-    margin = osmotic.margin_to_wilting_point(psi_total)
+        c["ec_fc_dS_m"][soil] = osmotic.soil_solution_ec_at_field_capacity(ece[soil])
+        c["psi_s_fc_MPa"][soil] = _psi_best(c["ec_fc_dS_m"][soil], t_soil)
+        c["ec_sw_dS_m"][soil] = osmotic.soil_solution_ec(ece[soil], sp_used,
+                                                         b.theta_g_pct[soil])
+        c["psi_s_sw_MPa"][soil] = _psi_best(c["ec_sw_dS_m"][soil], t_soil)
+        c["sp_used_pct"][soil] = sp_used
+    psi_root = np.where(np.isnan(c["psi_s_sw_MPa"]), c["psi_s_fc_MPa"], c["psi_s_sw_MPa"])
+    c["psi_total_MPa"] = osmotic.total_water_potential(psi_root, b.matric_MPa)
+    c["margin_to_pwp_MPa"] = osmotic.margin_to_wilting_point(c["psi_total_MPa"])
+    return c
 
-    # 6. crop and classes
-    rel_yield = np.full(n, np.nan)
-    lr = np.full(n, np.nan)
-    crop_name = np.full(n, None, dtype=object)
-    for (c,), rows in _groups(b.crop):
-        if not c:
-            continue
-        crop = tolerance.find_crop(c)
-        crop_name[rows] = crop.name
-        soil_rows = rows[is_soil[rows]]
-        rel_yield[soil_rows] = tolerance.relative_yield_pct(ece[soil_rows], crop)
-        water_rows = rows[b.sample[rows] == "water"]
-        lr[water_rows] = tolerance.leaching_requirement(ec25[water_rows], crop=crop)
-    soil_class = np.full(n, None, dtype=object)
-    if is_soil.any():
-        soil_class[is_soil] = tolerance.soil_salinity_class(ece[is_soil])
-    water_hazard = np.full(n, None, dtype=object)
+
+def _crop_step(b: Batch, ece: np.ndarray, ec25: np.ndarray) -> dict:
+    """6. Crop -> relative yield (soil), leaching requirement (water), and the
+    soil and water salinity classes (tolerance)."""
+    n = len(b)
+    is_soil = _is_soil(b)
     is_water = b.sample == "water"
+    c = {"crop": np.full(n, None, dtype=object), "relative_yield_pct": np.full(n, np.nan),
+         "leaching_requirement": np.full(n, np.nan),
+         "soil_class": np.full(n, None, dtype=object),
+         "water_hazard": np.full(n, None, dtype=object)}
+    for (name,), rows in _groups(b.crop):
+        if not name:
+            continue
+        crop = tolerance.find_crop(name)
+        c["crop"][rows] = crop.name
+        soil_rows = rows[is_soil[rows]]
+        c["relative_yield_pct"][soil_rows] = tolerance.relative_yield_pct(ece[soil_rows], crop)
+        water_rows = rows[is_water[rows]]
+        c["leaching_requirement"][water_rows] = tolerance.leaching_requirement(
+            ec25[water_rows], crop=crop)
+    if is_soil.any():
+        c["soil_class"][is_soil] = tolerance.soil_salinity_class(ece[is_soil])
     if is_water.any():
-        water_hazard[is_water] = tolerance.water_salinity_hazard(ec25[is_water])
+        c["water_hazard"][is_water] = tolerance.water_salinity_hazard(ec25[is_water])
+    return c
 
-    out = {
-        "value": b.value,
-        "unit": b.unit,
-        "unit_canonical": unit_canonical,
-        "unit_kind": unit_kind,
-        "unit_note": unit_note,
-        "sample": b.sample,
-        "ratio_n": b.ratio_n,
-        "temp_c": b.temp_c,
+
+def _columns(b: Batch, c: dict) -> dict:
+    """The batch's input and computed columns in their published order, plus
+    the context columns the flag rules read."""
+    return {
+        "value": b.value, "unit": b.unit, "unit_canonical": c["unit_canonical"],
+        "unit_kind": c["unit_kind"], "unit_note": c["unit_note"],
+        "sample": b.sample, "ratio_n": b.ratio_n, "temp_c": b.temp_c,
         "compensated": b.compensated,
-        "ec_dS_m": ec_dS_m,
-        "ec25_dS_m": ec25,
-        "compensation_factor": comp_factor,
-        "ece_dS_m": ece,
-        "ece_method": ece_method,
-        "ece_uncertainty_pct": ece_unc,
-        "ece_uncertainty_basis": ece_basis,
-        "ece_note": ece_note,
-        "ece_out_of_range": ece_oor,
-        "psi_s_MPa": psi_s,
-        "psi_s_method": psi_method,
-        **{f"psi_s_{k}_MPa": v for k, v in routes.items()},
-        f"psi_s_{osmotic.SEAWATER_ROUTE}_MPa": psi_sea,
-        "salinity_pss78": salinity,
-        "salt_type": salt,
-        "temp_method": temp_method,
-        "tds_mg_L": units.tds_mg_L_from_ec(ec25),
-        "cations_meq_L": units.cations_meq_L_from_ec(ec25),
-        "ec_fc_dS_m": ec_fc,
-        "psi_s_fc_MPa": psi_fc,
-        "ec_sw_dS_m": ec_sw,
-        "psi_s_sw_MPa": psi_sw,
+        **{k: c[k] for k in ("ec_dS_m", "ec25_dS_m", "compensation_factor", "ece_dS_m",
+                             "ece_method", "ece_uncertainty_pct", "ece_uncertainty_basis",
+                             "ece_note", "ece_out_of_range", "psi_s_MPa", "psi_s_method")},
+        **{f"psi_s_{k}_MPa": v for k, v in c["routes"].items()},
+        f"psi_s_{osmotic.SEAWATER_ROUTE}_MPa": c["psi_sea"],
+        "salinity_pss78": c["salinity_pss78"], "salt_type": c["salt_type"],
+        "temp_method": c["temp_method"],
+        "tds_mg_L": units.tds_mg_L_from_ec(c["ec25_dS_m"]),
+        "cations_meq_L": units.cations_meq_L_from_ec(c["ec25_dS_m"]),
+        **{k: c[k] for k in ("ec_fc_dS_m", "psi_s_fc_MPa", "ec_sw_dS_m", "psi_s_sw_MPa")},
         "matric_MPa": b.matric_MPa,
-        "psi_total_MPa": psi_total,
-        "margin_to_pwp_MPa": margin,
-        "crop": crop_name,
-        "relative_yield_pct": rel_yield,
-        "leaching_requirement": lr,
-        "soil_class": soil_class,
-        "water_hazard": water_hazard,
-        "sp_used_pct": sp_used_all,
+        **{k: c[k] for k in ("psi_total_MPa", "margin_to_pwp_MPa", "crop",
+                             "relative_yield_pct", "leaching_requirement", "soil_class",
+                             "water_hazard", "sp_used_pct")},
         **b.context,
     }
-    out["flags"] = checks.reading_flags(out)
-    return out
 
 
 def _psi_best(ec25_dS_m, temp_c):
@@ -380,308 +397,3 @@ def _psi_best(ec25_dS_m, temp_c):
     return np.where(np.isnan(best), routes["handbook60"], best)
 
 
-# --------------------------------------------------------------------------
-# Single readings: validation of typed input and a JSON-ready result.
-
-def parse_number(text, field: str, what: str = "a number") -> float | None:
-    """Parse a typed number; '' or None is None. A decimal comma is accepted
-    only when it is the only separator ("1,5" -> 1.5); "1,500" is refused as
-    ambiguous rather than guessed."""
-    if text is None:
-        return None
-    if isinstance(text, bool):
-        raise InputError(f"Type {what} for {field}.", field)
-    if isinstance(text, (int, float)):
-        x = float(text)
-    else:
-        s = str(text).strip().replace("\u2212", "-")
-        if s == "":
-            return None
-        if "," in s:
-            if "." in s or s.count(",") > 1 or len(s.split(",")[1]) == 3:
-                raise InputError(
-                    f"{s!r} is ambiguous: use a point as the decimal separator "
-                    f"and no thousands separator (e.g. 1500 or 1.5).", field)
-            s = s.replace(",", ".")
-        if not all(c in "0123456789.+-eE" for c in s):
-            raise InputError(f"{s!r} is not a number; type {what} in digits, e.g. 1.25.", field)
-        try:
-            x = float(s)
-        except ValueError:
-            raise InputError(f"{s!r} is not a number; type {what} in digits, e.g. 1.25.",
-                             field) from None
-    if not math.isfinite(x):
-        raise InputError(f"Type a finite number for {field}.", field)
-    return x
-
-
-def parse_bool(x) -> bool:
-    if isinstance(x, bool):
-        return x
-    if x is None:
-        return False
-    s = str(x).strip().lower()
-    if s in ("1", "true", "yes", "y", "on", "atc"):
-        return True
-    if s in ("", "0", "false", "no", "n", "off"):
-        return False
-    raise InputError(f"{x!r} is not yes or no.", "compensated")
-
-
-def validate_reading(d: dict) -> dict:
-    """Check typed fields of one reading; return clean keyword arguments for
-    :func:`make_batch`. Raises InputError naming the field."""
-    value = parse_number(d.get("value"), "value", "a reading")
-    if value is None:
-        raise InputError("Type the number the meter shows.", "value")
-    if value < 0:
-        raise InputError("EC cannot be negative; type the number the meter shows.", "value")
-    if value > 1e7:
-        raise InputError("That number is too large for any EC meter; check the digits.", "value")
-    unit = (d.get("unit") or "").strip()
-    if not unit:
-        raise InputError("Choose the unit the meter displays, e.g. µS/cm or mS/cm.", "unit")
-    units.parse_unit(unit)
-    sample = (d.get("sample") or "paste").strip().lower()
-    if sample not in extracts.SAMPLE_KINDS:
-        raise InputError("Unknown sample kind; use one of: "
-                         + ", ".join(extracts.SAMPLE_KINDS), "sample")
-    ratio = d.get("ratio")
-    ratio_n = None
-    if ratio not in (None, ""):
-        ratio_n = extracts.parse_ratio(ratio)
-    temp_c = parse_number(d.get("temp_c"), "temp_c", "a temperature")
-    if temp_c is not None:
-        temperature.check_temp_c(temp_c)
-    sp = parse_number(d.get("sp"), "sp", "a saturation percentage")
-    if sp is not None and not (5 <= sp <= 400):
-        raise InputError("Saturation percentage must be between 5 and 400 %.", "sp")
-    texture = (d.get("texture") or "").strip() or None
-    if texture:
-        extracts.sp_for_texture(texture)
-    tds_factor = parse_number(d.get("tds_factor"), "tds_factor", "a factor")
-    theta = parse_number(d.get("theta_g_pct"), "theta_g_pct", "a water content")
-    if theta is not None and not (1 <= theta <= 400):
-        raise InputError("Gravimetric water content must be between 1 and 400 %.", "theta_g_pct")
-    matric = parse_number(d.get("matric_MPa"), "matric_MPa", "a matric potential")
-    if matric is not None:
-        if matric > 0:
-            matric = -matric  # a tensiometer shows suction; the potential is negative
-        if matric < -10:
-            raise InputError("Matric potential must be between 0 and −10 MPa.", "matric_MPa")
-    crop = (d.get("crop") or "").strip() or None
-    if crop:
-        crop = tolerance.find_crop(crop).name
-    method = (d.get("ece_method") or "").strip() or None
-    salt_type = parse_salt_type(d.get("salt_type"))
-    return dict(value=value, unit=unit, sample=sample, ratio_n=ratio_n, temp_c=temp_c,
-                compensated=parse_bool(d.get("compensated")), sp_pct=sp, texture=texture,
-                tds_factor=tds_factor, theta_g_pct=theta, matric_MPa=matric,
-                ece_method=method, crop=crop, salt_type=salt_type)
-
-
-#: Accepted spellings of the one salt type with its own route.
-SALT_TYPES = {"sea_salt": "sea_salt", "sea salt": "sea_salt", "seawater": "sea_salt",
-              "sea": "sea_salt", "sea_water": "sea_salt"}
-
-
-def parse_salt_type(x) -> str | None:
-    """None (mixed salts or unknown: the NaCl and Handbook 60 routes) or
-    "sea_salt" (coastal wells, seawater intrusion: the PSS-78 seawater route
-    is added beside the NaCl route)."""
-    if x is None or (isinstance(x, str) and x.strip().lower() in ("", "mixed", "nacl", "none")):
-        return None
-    if isinstance(x, str) and x.strip().lower() in SALT_TYPES:
-        return SALT_TYPES[x.strip().lower()]
-    raise InputError("Salt type must be empty (mixed salts) or sea_salt (water like "
-                     "diluted seawater: coastal wells, seawater intrusion).", "salt_type")
-
-
-def round_sig(x, digits: int = 6):
-    """Round to significant digits for JSON; None for None, NaN and infinity."""
-    if x is None:
-        return None
-    x = float(x)
-    if math.isnan(x) or math.isinf(x):
-        return None
-    return float(f"{x:.{digits}g}")
-
-
-_num = round_sig
-
-
-def crop_summary(c) -> dict:
-    """A crop's salt tolerance as shown with a result: Maas-Hoffman threshold
-    and slope, ECe at 100/90/75/50 % yield, and the table row's source."""
-    return {
-        "name": c.name,
-        "threshold_dS_m": c.threshold_dS_m,
-        "slope_pct_per_dS_m": c.slope_pct_per_dS_m,
-        "tolerance_class": c.tolerance_class,
-        "tolerance_label": c.tolerance_label,
-        "ece_at_yield_dS_m": {str(p): round_sig(tolerance.ece_at_yield(c, p), 3)
-                              for p in (100, 90, 75, 50)},
-        "source": c.source,
-        "source_status": "read" if c.verified else "unverified",
-        "note": c.note or None,
-    }
-
-
-def meter_context(kw: dict, range_min=None, range_max=None, resolution=None,
-                  units_shown=None, temp_min_c=None, temp_max_c=None) -> dict:
-    """Context columns for a meter given in the reading's own unit (what a
-    scout reads off the meter's label): range and resolution -> dS/m."""
-    ctx = {}
-    factor = units.to_ec_dS_m(1.0, kw["unit"], tds_factor=kw.get("tds_factor")).item()
-    for key, v in (("meter_min_dS_m", range_min), ("meter_max_dS_m", range_max),
-                   ("meter_resolution_dS_m", resolution)):
-        if v is not None:
-            ctx[key] = float(v) * factor
-    if units_shown:
-        ctx["meter_units"] = tuple(units_shown)
-    if temp_min_c is not None:
-        ctx["meter_temp_min_c"] = float(temp_min_c)
-    if temp_max_c is not None:
-        ctx["meter_temp_max_c"] = float(temp_max_c)
-    return ctx
-
-
-def parse_meter_range(text) -> tuple[float, float]:
-    """'MIN:MAX' in the reading's unit, e.g. '0:1999'."""
-    parts = str(text).replace(" ", "").split(":")
-    if len(parts) != 2:
-        raise InputError("Give the meter range as MIN:MAX in the reading's unit, e.g. 0:1999.",
-                         "meter_range")
-    lo = parse_number(parts[0], "meter_range", "a range minimum")
-    hi = parse_number(parts[1], "meter_range", "a range maximum")
-    if lo is None or hi is None or lo < 0 or hi <= lo:
-        raise InputError("The meter range needs 0 <= MIN < MAX, e.g. 0:1999.", "meter_range")
-    return lo, hi
-
-
-def convert_reading(d: dict, context: dict | None = None) -> dict:
-    """Validate and convert one reading; the JSON shape of `convert --json`,
-    `POST /api/preview` and the stored row. ``context`` holds the optional
-    context columns (meter, calibration, history, replicates) or a callable
-    taking the validated fields and returning them."""
-    kw = validate_reading(d)
-    if callable(context):
-        context = context(kw)
-    out = convert_batch(make_batch(**kw, context=context))
-    return result_for_row(out, 0, kw)
-
-
-class RowInputError(InputError):
-    """An InputError of one reading in a list; ``index`` says which."""
-
-    def __init__(self, message, field, index):
-        super().__init__(message, field)
-        self.index = index
-
-
-def convert_readings(ds: list[dict]) -> list[dict]:
-    """Validate and convert many readings in one vectorized pass; the same
-    result dicts as :func:`convert_reading` (no context columns). Raises
-    RowInputError naming the index of the first reading that cannot be one."""
-    kws = []
-    for i, d in enumerate(ds):
-        try:
-            kws.append(validate_reading(d))
-        except InputError as e:
-            raise RowInputError(e.message, e.field, i) from None
-    if not kws:
-        return []
-    cols = {k: [kw[k] for kw in kws] for k in kws[0]}
-    floats = ("ratio_n", "temp_c", "sp_pct", "tds_factor", "theta_g_pct", "matric_MPa")
-    for k in floats:
-        cols[k] = np.array([np.nan if v is None else v for v in cols[k]], dtype=float)
-    for k in ("unit", "sample", "texture", "ece_method", "crop", "salt_type"):
-        arr = np.empty(len(kws), dtype=object)
-        arr[:] = cols[k]
-        cols[k] = arr
-    out = convert_batch(make_batch(**cols))
-    return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
-
-
-TDS_ESTIMATE_LABEL = ("TDS estimated from EC at 25 °C by USDA Handbook 60 "
-                      "(640 mg/L per dS/m); an estimate, not a measurement")
-
-
-def tds_block(kw: dict, row: dict) -> dict:
-    """The two TDS figures, each labelled: what a TDS meter displayed (with its
-    factor), and the Handbook 60 estimate from EC25. Never two bare numbers."""
-    meter = None
-    if row.get("unit_kind") == "tds":
-        f = kw.get("tds_factor")
-        meter = {"value": kw["value"], "unit": row["unit_canonical"], "factor": f,
-                 "label": f"TDS as the meter displayed it ({kw['value']:g} "
-                          f"{row['unit_canonical']}, meter factor {f:g} mg/L per µS/cm)"}
-    return {"meter": meter,
-            "estimate_mg_L": _num(row["tds_mg_L"], 4),
-            "estimate_method": "tds_estimate_handbook60",
-            "estimate_label": TDS_ESTIMATE_LABEL}
-
-
-def result_for_row(out: dict, i: int, kw: dict) -> dict:
-    """The JSON-ready result of row ``i`` of a converted batch."""
-    row = {k: v[i] for k, v in out.items() if k != "flags"}
-    row["flags"] = out["flags"].for_row(i)
-    crop = row["crop"]
-    result = {
-        "input": {
-            "value": kw["value"], "unit": kw["unit"], "sample": kw["sample"],
-            "ratio": None if kw["ratio_n"] is None else f"1:{kw['ratio_n']:g}",
-            "temp_c": kw["temp_c"], "compensated": kw["compensated"],
-            "sp": kw["sp_pct"], "texture": kw["texture"], "tds_factor": kw["tds_factor"],
-            "theta_g_pct": kw["theta_g_pct"], "matric_MPa": kw["matric_MPa"],
-            "crop": crop, "ece_method": kw["ece_method"],
-            "salt_type": kw.get("salt_type"),
-        },
-        "unit_canonical": row["unit_canonical"],
-        "unit_note": row["unit_note"],
-        "ec_dS_m": _num(row["ec_dS_m"]),
-        "ec25_dS_m": _num(row["ec25_dS_m"]),
-        "ec25_uS_cm": _num(row["ec25_dS_m"] * 1000.0),
-        "compensation_factor": _num(row["compensation_factor"], 4),
-        "temp_method": row["temp_method"],
-        "ece_dS_m": _num(row["ece_dS_m"]),
-        "ece_method": row["ece_method"],
-        "ece_uncertainty_pct": _num(row["ece_uncertainty_pct"], 3),
-        "ece_uncertainty_basis": row["ece_uncertainty_basis"],
-        "ece_note": row["ece_note"],
-        "ece_out_of_range": bool(row["ece_out_of_range"]),
-        "psi_s_MPa": _num(row["psi_s_MPa"], 4),
-        "psi_s_method": row["psi_s_method"],
-        "psi_s_by_method": {k: _num(row[f"psi_s_{k}_MPa"], 4)
-                            for k in (*osmotic.PSI_S_ROUTES, osmotic.SEAWATER_ROUTE)},
-        "salinity_pss78": _num(row["salinity_pss78"], 4),
-        "tds_mg_L": _num(row["tds_mg_L"], 4),
-        "tds": tds_block(kw, row),
-        "cations_meq_L": _num(row["cations_meq_L"], 4),
-        "soil_solution": None,
-        "soil_class": row["soil_class"],
-        "water_hazard": row["water_hazard"],
-        "flags": [f.as_dict() for f in row["flags"]],
-        "cautions": list(CAUTIONS),
-    }
-    if kw["sample"] in ("paste", "extract"):
-        result["soil_solution"] = {
-            "ec_fc_dS_m": _num(row["ec_fc_dS_m"]),
-            "psi_s_fc_MPa": _num(row["psi_s_fc_MPa"], 4),
-            "ec_sw_dS_m": _num(row["ec_sw_dS_m"]),
-            "psi_s_sw_MPa": _num(row["psi_s_sw_MPa"], 4),
-            "matric_MPa": _num(row["matric_MPa"], 4),
-            "psi_total_MPa": _num(row["psi_total_MPa"], 4),
-            "margin_to_pwp_MPa": _num(row["margin_to_pwp_MPa"], 4),
-            "field_capacity_MPa": osmotic.FIELD_CAPACITY_MPa,
-            "wilting_point_MPa": osmotic.PERMANENT_WILTING_POINT_MPa,
-        }
-    if crop:
-        result["crop"] = crop_summary(tolerance.find_crop(crop))
-        if kw["sample"] in ("paste", "extract"):
-            result["relative_yield_pct"] = _num(row["relative_yield_pct"], 4)
-        if kw["sample"] == "water":
-            lr = float(row["leaching_requirement"])
-            result["leaching_requirement"] = None if math.isnan(lr) else (
-                _num(lr, 4) if math.isfinite(lr) else None)
-    return result

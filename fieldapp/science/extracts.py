@@ -111,108 +111,25 @@ SAMPLE_KINDS: dict[str, SampleKind] = {k.key: k for k in (
 # Dilution ratio
 # --------------------------------------------------------------------------
 
+#: The most dilute extract any method here reads (1:N with N at most this).
 MAX_RATIO_N = 1000.0
-#: Longest ratio text read at all: "1 : 2.5" is 7 characters; anything much
-#: longer is not a ratio and is refused before it is scanned.
-RATIO_TEXT_MAX = 40
-_DIGITS = frozenset("0123456789")      # ASCII only: other scripts' digits are refused
-_RATIO_SEPARATORS = (":", "/", "\u2236")
 
 
-def _decimal(part: str) -> float | None:
-    """'2.5', '2,5', '.5' or '5' -> float; anything else (including '5.',
-    '1e3', '1_0' and non-ASCII digits) -> None. One pass over the text,
-    no regular expression: linear time whatever is typed."""
-    if not part:
-        return None
-    sep = -1
-    for i, c in enumerate(part):
-        if c in _DIGITS:
-            continue
-        if c in ".," and sep < 0:
-            sep = i
-            continue
-        return None
-    if sep == len(part) - 1:
-        return None
-    return float(part.replace(",", ".") if sep >= 0 else part)
+def check_ratio_n(n) -> float:
+    """N of a 1:N extract as a number: finite, above 0, at most :data:`MAX_RATIO_N`.
 
+    The pipeline passes N as a float. Text as typed ("1:5", "1:2,5") and any
+    number out of range are handed to :func:`fieldapp.forms.parse_ratio`,
+    which reads the text and words the message (field ``"ratio"``).
 
-def _ratio_parts(s: str) -> tuple[str, str] | None:
-    """Split 'a:b', 'a/b', 'a∶b' or 'a to b' at its one separator."""
-    found = [(i, len(c)) for c in _RATIO_SEPARATORS for i in [s.find(c)] if i >= 0]
-    low = s.lower()
-    if "to" in low:
-        found.append((low.find("to"), 2))
-    if len(found) != 1:
-        return None
-    i, n = found[0]
-    a, b = s[:i], s[i + n:]
-    if any(c in b for c in _RATIO_SEPARATORS) or "to" in b.lower():
-        return None
-    return a.strip(), b.strip()
-
-
-def parse_ratio(text_or_number) -> float:
-    """Water parts N per 1 part soil (or substrate) from what was typed.
-
-    Accepts ``"1:5"``, ``"1 : 2.5"``, ``"1/5"``, ``"1 to 5"``, ``"5"``, ``5`` and
-    ``"1:2,5"`` (decimal comma). A general ``a:b`` with a ≤ b gives N = b/a.
-
-    ``"5:1"`` (more soil than water) is almost always a swapped ratio and is
-    refused with a message suggesting ``1:5``. N must be finite, > 0 and
-    ≤ 1000; unusual but possible values such as 1:100 pass (a plausibility
-    check flags them later).
-
-    Returns
-    -------
-    float
-        N in "1:N".
-
-    Raises
-    ------
-    InputError
-        field ``"ratio"``, with a message that says what to type instead.
+    >>> check_ratio_n(5), check_ratio_n("1:2.5")
+    (5.0, 2.5)
     """
-    hint = "Type the soil:water ratio as 1:N, for example 1:1, 1:2, 1:2.5 or 1:5."
-    if text_or_number is None or (isinstance(text_or_number, str) and not text_or_number.strip()):
-        raise InputError("The dilution ratio is missing. " + hint, "ratio")
-    if isinstance(text_or_number, bool):
-        raise InputError("The dilution ratio must be a number. " + hint, "ratio")
-    if isinstance(text_or_number, (int, float, np.integer, np.floating)):
-        n = float(text_or_number)
-    elif isinstance(text_or_number, str):
-        s = text_or_number.strip()
-        if len(s) > RATIO_TEXT_MAX:
-            raise InputError(f"That ratio is {len(s)} characters long; a ratio is short. "
-                             + hint, "ratio")
-        parts = _ratio_parts(s)
-        if parts is not None:
-            a, b = _decimal(parts[0]), _decimal(parts[1])
-            if a is None or b is None:
-                raise InputError(f"{s!r} is not a ratio. " + hint, "ratio")
-            if a <= 0 or b <= 0:
-                raise InputError(f"{s!r} has a zero part. " + hint, "ratio")
-            if a > b:
-                swapped = a / b
-                raise InputError(
-                    f"{s!r} means more soil than water, which is almost certainly "
-                    f"swapped: type 1:{swapped:g} (soil first, then water).", "ratio")
-            n = b / a
-        else:
-            n = _decimal(s)
-            if n is None:
-                raise InputError(f"{s!r} is not a ratio. " + hint, "ratio")
-    else:
-        raise InputError("The dilution ratio must be text like 1:5 or a number. " + hint,
-                         "ratio")
-    if not math.isfinite(n) or n <= 0:
-        raise InputError("The water part of the ratio must be a positive number. " + hint,
-                         "ratio")
-    if n > MAX_RATIO_N:
-        raise InputError(f"1:{n:g} is beyond any soil or substrate extract "
-                         f"(at most 1:{MAX_RATIO_N:g}). " + hint, "ratio")
-    return n
+    if (isinstance(n, (int, float, np.integer, np.floating)) and not isinstance(n, bool)
+            and math.isfinite(n) and 0 < n <= MAX_RATIO_N):
+        return float(n)
+    from ..forms import parse_ratio   # typed text is the forms' job
+    return parse_ratio(n)
 
 
 # --------------------------------------------------------------------------
@@ -357,7 +274,7 @@ def ece_sp_dilution(ec_1N_dS_m, n, sp_pct) -> np.ndarray:
     common practice.
     """
     ec = _as_ec(ec_1N_dS_m)
-    n = parse_ratio(n)
+    n = check_ratio_n(n)
     sp = _check_sp(sp_pct)
     return ec * (100.0 * n / sp)
 
@@ -440,7 +357,7 @@ def _same_ratio(a: float, b: float, tol: float = 0.01) -> bool:
 
 def regressions_for_ratio(n) -> list[Regression]:
     """Published regressions whose ratio is within 1 % of 1:N (default first)."""
-    n = parse_ratio(n)
+    n = check_ratio_n(n)
     found = [r for r in REGRESSIONS.values() if _same_ratio(r.ratio_n, n)]
     return sorted(found, key=lambda r: (not r.default_for_ratio, r.name))
 
@@ -594,7 +511,7 @@ def _texture_spread_pct(tex: Texture) -> float:
 
 def hogg_henry_for_texture(n, texture) -> Regression | None:
     """The Hogg and Henry (1984) line for a 1:1 or 1:2 extract of a texture class."""
-    n = parse_ratio(n)
+    n = check_ratio_n(n)
     tex = find_texture(texture)
     ratio = "1to1" if _same_ratio(n, 1.0) else "1to2" if _same_ratio(n, 2.0) else None
     if ratio is None:
@@ -822,7 +739,7 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
     sample : str
         Key of :data:`SAMPLE_KINDS`.
     ratio_n : float or str, optional
-        N of a 1:N extract (anything :func:`parse_ratio` accepts).
+        N of a 1:N extract (a number, or text :func:`fieldapp.forms.parse_ratio` accepts).
     sp_pct : float, optional
         Measured saturation percentage, %.
     texture : str, optional
@@ -860,7 +777,7 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
                            PASTE_UNCERTAINTY_SOURCE)
 
     # kind == extract
-    n = parse_ratio(ratio_n) if ratio_n is not None else None
+    n = check_ratio_n(ratio_n) if ratio_n is not None else None
     if meth == "paste":
         raise InputError("'paste' is for saturated paste extracts; for a 1:N extract "
                          "choose sp_dilution or a regression.", "method")

@@ -9,7 +9,7 @@ from flask import (Blueprint, Response, abort, current_app, render_template, req
 from .. import csvio, store
 from .. import sites as sitecfg
 from ..science import extracts, tolerance, units
-from ..science.convert import CAUTIONS
+from ..results import CAUTIONS
 from . import get_db
 
 bp = Blueprint("pages", __name__)

@@ -24,8 +24,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from fieldapp import create_app, csvio, store          # noqa: E402
-from fieldapp.science import InputError, extracts      # noqa: E402
+from fieldapp import create_app, csvio, forms, store   # noqa: E402
+from fieldapp.science import InputError                # noqa: E402
 
 BODY_MAX = 1024 * 1024
 #: The pattern the ratio parser used before (kept here only to measure it).
@@ -65,7 +65,7 @@ def main() -> None:
 
         def new(s=s):
             try:
-                extracts.parse_ratio(s)
+                forms.parse_ratio(s)
             except InputError:
                 pass
 
