@@ -15,6 +15,7 @@ from typing import Iterable, Iterator, TextIO
 import numpy as np
 
 from . import forms
+from .fmt import number
 from .science import InputError, convert, extracts
 
 #: Input columns convert-csv understands; only value and unit are required.
@@ -140,12 +141,8 @@ def _check_categories(col, check, first_line: int, field: str) -> None:
 
 
 def format_number(x) -> str:
-    """Plain decimal notation (never 1e-05), empty for missing."""
-    x = float(x)
-    if math.isnan(x) or math.isinf(x):
-        return ""
-    s = np.format_float_positional(x, precision=6, unique=False, fractional=False, trim="-")
-    return s
+    """A computed cell: the one formatter, six significant digits, empty for missing."""
+    return number(x, 6, missing="")
 
 
 def _format_column(arr) -> list[str]:

@@ -21,6 +21,8 @@ import html
 import math
 from typing import Mapping, Sequence
 
+from .fmt import number as fmt   # the one formatter; chart labels use 3 digits, data-value 6
+
 #: Mean radius of the Earth, km: R1 = (2a + b)/3 of the GRS 80 ellipsoid
 #: (Moritz 2000, "Geodetic Reference System 1980", J. Geodesy 74: 128-133),
 #: 6371.0088 km -- value from memory.
@@ -51,18 +53,6 @@ LINE_DASHES = ("", "8 4", "3 3", "1 3", "10 3 2 3")
 def esc(text) -> str:
     """Text for SVG/HTML: &, <, >, quotes escaped; None becomes ''."""
     return html.escape("" if text is None else str(text), quote=True)
-
-
-def fmt(x: float, digits: int = 3) -> str:
-    """A short number for a label: 3 significant digits, no exponent."""
-    if x is None or not math.isfinite(x):
-        return "—"
-    if x == 0:
-        return "0"
-    s = f"{x:.{digits}g}"
-    if "e" in s:
-        s = f"{x:.{max(0, digits - 1 - int(math.floor(math.log10(abs(x)))))}f}"
-    return s
 
 
 def _f(x: float) -> str:

@@ -17,13 +17,13 @@ from __future__ import annotations
 import csv
 import io
 import json
-import math
 import re
 import sqlite3
 import unicodedata
 from typing import IO, Iterator
 
 from . import __version__, store
+from .fmt import number
 from .science import InputError
 
 BOM = "\ufeff"
@@ -53,20 +53,9 @@ _FORMULA_START = ("=", "+", "-", "@", "\t", "\r",
 
 
 def plain_number(x) -> str:
-    """A float in plain decimal notation, shortest exact repr (never 1e-05)."""
-    if x is None:
-        return ""
-    x = float(x)
-    if math.isnan(x) or math.isinf(x):
-        return ""
-    s = repr(x)
-    if "e" in s or "E" in s:
-        s = f"{x:.20f}".rstrip("0").rstrip(".")
-        if float(s) != x:  # very small numbers: keep every significant digit
-            s = format(x, ".40f").rstrip("0").rstrip(".")
-    if s.endswith(".0"):
-        s = s[:-2]
-    return "0" if s == "-0" else s
+    """A CSV cell: the one formatter with every digit (shortest exact text,
+    never 1e-05), empty for missing."""
+    return number(x, None, missing="")
 
 
 _FORMULA_FIRST = frozenset(_FORMULA_START)

@@ -23,6 +23,7 @@ from collections import defaultdict
 from typing import Iterable, Mapping
 
 from .science import InputError, extracts, osmotic, tolerance
+from .fmt import number as short_number   # the one formatter (3 significant digits)
 from .forms import parse_number, parse_ratio
 from .results import CAUTIONS as CONVERT_CAUTIONS
 from .results import crop_summary, round_sig
@@ -156,20 +157,6 @@ def _range_text(lo, hi) -> str:
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
-
-def short_number(x, digits: int = 3) -> str:
-    """A number with a few significant digits in plain notation (never 1e-05);
-    "—" for a missing value. Used by the pages and the interpretation text."""
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "—"
-    x = float(x)
-    if x == 0:
-        return "0"
-    s = f"{x:.{digits}g}"
-    if "e" in s:
-        s = f"{x:f}".rstrip("0").rstrip(".")
-    return s
-
 
 def _r(x, digits: int = 4):
     """Round for JSON (4 significant digits here); None for None/NaN/inf."""

@@ -15,6 +15,7 @@ import statistics
 from . import store
 from .data import load_table
 from .science import InputError, temperature, units
+from .fmt import number
 from .forms import parse_number
 
 #: Default tolerance of a calibration check, % of the expected value. Common
@@ -108,7 +109,7 @@ def meter_class(p: dict) -> dict:
 
 
 def _num_text(x) -> str:
-    return f"{float(x):.10g}"
+    return number(x, 10)
 
 
 def _num(body, key, what, required=False):

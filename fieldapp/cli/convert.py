@@ -7,18 +7,14 @@ import sys
 
 import click
 
+from ..fmt import number
 from ..science import InputError
 from . import cli
 from .output import output_option, write_csv
 
 
 def _fmt(x, unit="", digits=3):
-    if x is None:
-        return "—"
-    s = f"{x:.{digits}g}"
-    if "e" in s:
-        s = f"{x:.0f}" if abs(x) >= 1 else f"{x:.{digits + 3}f}".rstrip("0")
-    return f"{s} {unit}".rstrip()
+    return number(x, digits, unit=unit or None)
 
 
 def format_result(r: dict) -> str:

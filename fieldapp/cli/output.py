@@ -9,7 +9,7 @@ from typing import Callable, Iterable
 
 import click
 
-from ..interpret import short_number
+from ..fmt import number
 
 
 def output_option(f):
@@ -53,9 +53,7 @@ def write_csv(rows: Iterable[dict], columns: list[str] | None = None, out=None) 
 
 def num(x, digits: int = 4) -> str:
     """A number for a person: a few significant digits, never 1e-05."""
-    if x is None:
-        return "—"
-    return short_number(x, digits)
+    return number(x, digits)
 
 
 def table(rows: list[dict], columns: list[tuple[str, str]], out=None) -> None:

@@ -7,7 +7,7 @@ import sqlite3
 from flask import current_app, g, jsonify, render_template, request
 
 from .. import store
-from ..interpret import short_number
+from ..fmt import number as short_number
 from ..science import InputError
 
 
