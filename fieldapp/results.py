@@ -114,17 +114,7 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
         "cautions": list(CAUTIONS),
     }
     if kw["sample"] in ("paste", "extract"):
-        result["soil_solution"] = {
-            "ec_fc_dS_m": round_sig(row["ec_fc_dS_m"]),
-            "psi_s_fc_MPa": round_sig(row["psi_s_fc_MPa"], 4),
-            "ec_sw_dS_m": round_sig(row["ec_sw_dS_m"]),
-            "psi_s_sw_MPa": round_sig(row["psi_s_sw_MPa"], 4),
-            "matric_MPa": round_sig(row["matric_MPa"], 4),
-            "psi_total_MPa": round_sig(row["psi_total_MPa"], 4),
-            "margin_to_pwp_MPa": round_sig(row["margin_to_pwp_MPa"], 4),
-            "field_capacity_MPa": osmotic.FIELD_CAPACITY_MPa,
-            "wilting_point_MPa": osmotic.PERMANENT_WILTING_POINT_MPa,
-        }
+        result["soil_solution"] = _soil_solution(row)
     if crop:
         result["crop"] = crop_summary(tolerance.find_crop(crop))
         if kw["sample"] in ("paste", "extract"):
@@ -134,3 +124,19 @@ def result_for_row(out: dict, i: int, kw: dict) -> dict:
             result["leaching_requirement"] = None if math.isnan(lr) else (
                 round_sig(lr, 4) if math.isfinite(lr) else None)
     return result
+
+
+def _soil_solution(row: dict) -> dict:
+    """The soil solution of a soil reading: EC and solute potential at field
+    capacity and at the measured moisture, total potential, margin to wilting."""
+    return {
+        "ec_fc_dS_m": round_sig(row["ec_fc_dS_m"]),
+        "psi_s_fc_MPa": round_sig(row["psi_s_fc_MPa"], 4),
+        "ec_sw_dS_m": round_sig(row["ec_sw_dS_m"]),
+        "psi_s_sw_MPa": round_sig(row["psi_s_sw_MPa"], 4),
+        "matric_MPa": round_sig(row["matric_MPa"], 4),
+        "psi_total_MPa": round_sig(row["psi_total_MPa"], 4),
+        "margin_to_pwp_MPa": round_sig(row["margin_to_pwp_MPa"], 4),
+        "field_capacity_MPa": osmotic.FIELD_CAPACITY_MPa,
+        "wilting_point_MPa": osmotic.PERMANENT_WILTING_POINT_MPa,
+    }
