@@ -352,17 +352,17 @@ def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
         if not site_ids:
             return {}
         only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
+    # reading_flags (schema 014): the error-level rows through their index,
+    # then three unique-index probes each; no JSON is read.
     rows = conn.execute("""
-        SELECT r.site_id, COUNT(DISTINCT r.id)
-        FROM readings r
-        JOIN json_each(r.result_json, '$.flags') f
-        WHERE r.flags <> ''
-          AND instr(r.result_json, '"severity":"error"') > 0   -- cheap test before any JSON
-          AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = r.id)
-          AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = r.id)
-          AND json_extract(f.value, '$.severity') = 'error'
-          AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
-                          AND a.code = json_extract(f.value, '$.code'))
+        SELECT r.site_id, COUNT(DISTINCT f.reading_id)
+        FROM reading_flags f
+        JOIN readings r ON r.id = f.reading_id
+        WHERE f.severity = 'error'
+          AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = f.reading_id)
+          AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = f.reading_id)
+          AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = f.reading_id
+                          AND a.code = f.code)
           """ + only + """
         GROUP BY r.site_id""", args).fetchall()
     return {r[0]: r[1] for r in rows}

@@ -77,6 +77,9 @@ def _templates() -> list[dict]:
                          "compensated": True, "note": "north corner" if i % 4 == 0 else ""})
         payloads.append({"sample": "feed", "value": f"{1.5 + 0.05 * i:.2f}", "unit": "mS/cm",
                          "compensated": True})
+        if i % 10 == 0:   # a unit slip now and then: an error-level flag to check
+            payloads.append({"sample": "water", "value": f"{700 + 10 * i}", "unit": "dS/m",
+                             "temp_c": "20"})
     out = []
     for k, pl in enumerate(payloads):
         rec = build_record({**pl, "site": "Block 1"})
