@@ -751,12 +751,20 @@ def water_bands() -> list[dict]:
 
 
 def _point(r: Mapping, y: float, series: str) -> dict:
+    """One chart point; its label is written by :func:`_label_point` once the
+    series is thinned (a long series keeps ~120 of its points)."""
+    return {"t": r.get("taken_at") or _day(r), "y": y, "key": r.get("uuid"),
+            "flagged": is_flagged(r), "_label": (series, r)}
+
+
+def _label_point(p: dict) -> dict:
+    series, r = p.pop("_label")
     codes = [f["code"] for f in _flags(r)]
-    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(y)} dS/m"
+    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(p['y'])} dS/m"
     if codes:
         label += " · flags: " + ", ".join(codes)
-    return {"t": r.get("taken_at") or _day(r), "y": y, "key": r.get("uuid"),
-            "flagged": is_flagged(r), "label": label}
+    p["label"] = label
+    return p
 
 
 #: A chart series longer than this is thinned (see :func:`thin_points`).
@@ -799,7 +807,8 @@ def _thin_series(specs: list[dict], keep_day: str | None) -> list[dict]:
     for spec in specs:
         for ser in spec["series"]:
             n = len(ser["points"])
-            ser["points"] = thin_points(ser["points"], keep_day=keep_day)
+            ser["points"] = [_label_point(p) for p in thin_points(ser["points"],
+                                                                  keep_day=keep_day)]
             if len(ser["points"]) < n:
                 ser["thinned_from"] = n
     return specs
