@@ -1,9 +1,12 @@
 """What the readings of a site mean: where it stands, where it is heading.
 
-Pure: a site and its reading records in (dicts shaped as
-``store.reading_dict`` returns them: ``status``, ``sample``, ``depth_cm``,
-``taken_at``, ``visit_date``, ``flags``, ``uuid`` and the stored conversion
-``result``), a JSON-ready dict out. No Flask, no SQL, no I/O.
+Pure: a site and its reading records in, a JSON-ready dict out. No Flask,
+no SQL, no I/O. A record is either shaped as ``store.view_readings`` gives
+it (columns only: ``status``, ``sample``, ``depth_cm``, ``taken_at``,
+``visit_date``, the computed values and the soil solution estimates as
+columns, ``flag_list`` from the flag rows; what the pages use, no JSON
+decoded) or as ``store.reading_dict`` gives it (the stored conversion
+``result``); the values read are the same.
 
 Only *current* readings (neither corrected nor void) are interpreted. The
 numbers of each reading are the ones stored with it (the conversion made
@@ -187,7 +190,17 @@ def _ece(r: Mapping) -> float | None:
 
 
 def _flags(r: Mapping) -> list[dict]:
+    fl = r.get("flag_list")           # store.view_readings: from reading_flags
+    if fl is not None:
+        return fl
     return list((r.get("result") or {}).get("flags") or [])
+
+
+def _unc(r: Mapping):
+    """The ECe uncertainty stated for the reading's method (± %), or None."""
+    if "ece_uncertainty_pct" in r:    # a column (store.view_readings)
+        return r["ece_uncertainty_pct"]
+    return (r.get("result") or {}).get("ece_uncertainty_pct")
 
 
 def is_flagged(r: Mapping) -> bool:
@@ -237,6 +250,9 @@ def soil_class(ece: float | None) -> tuple[str | None, str | None]:
 def _soil_value(rs: list[Mapping], path: tuple[str, ...]) -> float | None:
     vals = []
     for r in rs:
+        if path[-1] in r:             # a column (store.view_readings, schema 015)
+            vals.append(r[path[-1]])
+            continue
         v = r.get("result") or {}
         for p in path:
             v = (v or {}).get(p) if isinstance(v, Mapping) else None
@@ -278,7 +294,7 @@ def _depth_row(depth, day, rs, crop, last_day) -> dict:
                                  "usable water content)")
         else:
             moisture["basis"] = "matric reading + solute potential at this water content"
-    unc = [r.get("result", {}).get("ece_uncertainty_pct") for r in rs]
+    unc = [_unc(r) for r in rs]
     unc = [u for u in unc if u is not None]
     # at field capacity: matric -0.033 MPa (common practice) + solute potential there
     psi_fc = _soil_value(rs, ("soil_solution", "psi_s_fc_MPa"))
@@ -368,7 +384,7 @@ def _heading(prev_rs, last_rs, prev_day, last_day) -> dict:
         return _mean(_mean(v) for v in by.values())
 
     def unc(rs):
-        u = [(r.get("result") or {}).get("ece_uncertainty_pct") for r in rs]
+        u = [_unc(r) for r in rs]
         u = [x for x in u if x is not None]
         return max(u) if u else FALLBACK_UNCERTAINTY_PCT
 
@@ -723,12 +739,20 @@ def water_bands() -> list[dict]:
 
 
 def _point(r: Mapping, y: float, series: str) -> dict:
+    """One chart point; its label is written by :func:`_label_point` once the
+    series is thinned (a long series keeps ~120 of its points)."""
+    return {"t": r.get("taken_at") or _day(r), "y": y, "key": r.get("uuid"),
+            "flagged": is_flagged(r), "_label": (series, r)}
+
+
+def _label_point(p: dict) -> dict:
+    series, r = p.pop("_label")
     codes = [f["code"] for f in _flags(r)]
-    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(y)} dS/m"
+    label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(p['y'])} dS/m"
     if codes:
         label += " · flags: " + ", ".join(codes)
-    return {"t": r.get("taken_at") or _day(r), "y": y, "key": r.get("uuid"),
-            "flagged": is_flagged(r), "label": label}
+    p["label"] = label
+    return p
 
 
 #: A chart series longer than this is thinned (see :func:`thin_points`).
@@ -771,7 +795,8 @@ def _thin_series(specs: list[dict], keep_day: str | None) -> list[dict]:
     for spec in specs:
         for ser in spec["series"]:
             n = len(ser["points"])
-            ser["points"] = thin_points(ser["points"], keep_day=keep_day)
+            ser["points"] = [_label_point(p) for p in thin_points(ser["points"],
+                                                                  keep_day=keep_day)]
             if len(ser["points"]) < n:
                 ser["thinned_from"] = n
     return specs

@@ -25,6 +25,34 @@ INPUT_FIELDS = ("sample", "depth_cm", "value", "unit", "temp_c", "compensated", 
                 "replicate_group", "note", "taken_at")
 #: Columns computed by science.convert, stored beside the input.
 COMPUTED_FIELDS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method", "flags")
+#: Values the site views read, kept as columns (schema 015) beside the result
+#: JSON they are copied from, by the INSERT itself (:func:`readings_insert_sql`): the
+#: interpretation of a site reads columns, never each reading's JSON.
+VIEW_COLUMNS = {
+    "ece_uncertainty_pct": "$.ece_uncertainty_pct",
+    "ec_fc_dS_m": "$.soil_solution.ec_fc_dS_m",
+    "psi_s_fc_MPa": "$.soil_solution.psi_s_fc_MPa",
+    "ec_sw_dS_m": "$.soil_solution.ec_sw_dS_m",
+    "psi_s_sw_MPa": "$.soil_solution.psi_s_sw_MPa",
+    "psi_total_MPa": "$.soil_solution.psi_total_MPa",
+    "margin_to_pwp_MPa": "$.soil_solution.margin_to_pwp_MPa",
+}
+
+
+def _view_values_sql(result_json: str) -> str:
+    """The VIEW_COLUMNS values as SQL expressions over ``result_json`` (an
+    expression: a column or a bound parameter)."""
+    return ", ".join(f"json_extract({result_json}, '{p}')" for p in VIEW_COLUMNS.values())
+
+
+def readings_insert_sql(cols: tuple, extra_cols: str = "", extra_vals: str = "") -> str:
+    """INSERT INTO readings for these columns (``result_json`` among them) plus
+    the VIEW_COLUMNS, computed in the same statement from the same JSON.
+    Numbered parameters ?1..?n follow ``cols``; ``extra_vals`` may use ?n+1..."""
+    params = ", ".join(f"?{i}" for i in range(1, len(cols) + 1))
+    rj = f"?{cols.index('result_json') + 1}"
+    return (f"INSERT INTO readings ({', '.join(cols)}, {', '.join(VIEW_COLUMNS)}{extra_cols}) "
+            f"VALUES ({params}, {_view_values_sql(rj)}{extra_vals})")
 
 
 class StoreError(Exception):
@@ -352,17 +380,17 @@ def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
         if not site_ids:
             return {}
         only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
+    # reading_flags (schema 014): the error-level rows through their index,
+    # then three unique-index probes each; no JSON is read.
     rows = conn.execute("""
-        SELECT r.site_id, COUNT(DISTINCT r.id)
-        FROM readings r
-        JOIN json_each(r.result_json, '$.flags') f
-        WHERE r.flags <> ''
-          AND instr(r.result_json, '"severity":"error"') > 0   -- cheap test before any JSON
-          AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = r.id)
-          AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = r.id)
-          AND json_extract(f.value, '$.severity') = 'error'
-          AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = r.id
-                          AND a.code = json_extract(f.value, '$.code'))
+        SELECT r.site_id, COUNT(DISTINCT f.reading_id)
+        FROM reading_flags f
+        JOIN readings r ON r.id = f.reading_id
+        WHERE f.severity = 'error'
+          AND NOT EXISTS (SELECT 1 FROM voids v WHERE v.reading_id = f.reading_id)
+          AND NOT EXISTS (SELECT 1 FROM readings n WHERE n.supersedes_id = f.reading_id)
+          AND NOT EXISTS (SELECT 1 FROM flag_acks a WHERE a.reading_id = f.reading_id
+                          AND a.code = f.code)
           """ + only + """
         GROUP BY r.site_id""", args).fetchall()
     return {r[0]: r[1] for r in rows}
@@ -446,8 +474,7 @@ def insert_reading(conn, rec: dict, site_attrs: dict | None = None,
         vals[cols.index("compensated")] = 1 if rec.get("compensated") else 0
         vals[cols.index("note")] = rec.get("note") or ""
         vals[cols.index("flags")] = rec.get("flags") or ""
-        conn.execute(f"INSERT INTO readings ({', '.join(cols)}) VALUES "
-                     f"({', '.join('?' * len(cols))})", vals)
+        conn.execute(readings_insert_sql(cols), vals)
         return (get_reading(conn, rec["uuid"]) if fetch else None), True
 
 
@@ -479,9 +506,9 @@ def insert_readings_bulk(conn, recs: list[dict]) -> int:
         vals[cols.index("flags")] = rec.get("flags") or ""
         rows.append(vals + [rec.get("supersedes_uuid")])
     try:
-        conn.executemany(
-            f"INSERT INTO readings ({', '.join(cols)}, supersedes_id) VALUES "
-            f"({', '.join('?' * len(cols))}, (SELECT id FROM readings WHERE uuid = ?))", rows)
+        conn.executemany(readings_insert_sql(cols, ", supersedes_id",
+                                     f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})"),
+                         rows)
     except sqlite3.IntegrityError as e:
         raise StoreError(f"The file corrects one reading twice or repeats a reading ({e}).",
                          "file", 400) from None
@@ -690,10 +717,14 @@ def iter_readings(conn, site_id=None, sample=None, date_from=None, date_to=None,
         yield from rows
 
 
+#: Kept out of the API's record: internal keys, and the view columns (copies of
+#: values the record's ``result`` holds already; schema 015).
+_NOT_IN_RECORD = frozenset(("result_json", "visit_id", "supersedes_id", *VIEW_COLUMNS))
+
+
 def reading_dict(row: sqlite3.Row) -> dict:
     """A stored reading as JSON-ready dict (the API's record)."""
-    d = {k: row[k] for k in row.keys() if k not in ("result_json", "visit_id",
-                                                    "supersedes_id")}
+    d = {k: row[k] for k in row.keys() if k not in _NOT_IN_RECORD}
     d["compensated"] = bool(d["compensated"])
     d["flags"] = [c for c in (row["flags"] or "").split(";") if c]
     d["result"] = json.loads(row["result_json"])
@@ -701,6 +732,33 @@ def reading_dict(row: sqlite3.Row) -> dict:
 
 
 # ---- site views
+
+_VIEW_SELECT = f"""
+    SELECT r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.ratio, r.theta_g_pct,
+           r.matric_MPa, r.meter, r.ec25_dS_m, r.ece_dS_m, r.ece_method, r.flags,
+           {', '.join('r.' + c for c in VIEW_COLUMNS)}, v.visit_date, st.status,
+           CASE WHEN r.flags = '' THEN '' ELSE
+               (SELECT group_concat(f.code || ' ' || f.severity, ';') FROM reading_flags f
+                WHERE f.reading_id = r.id) END AS flag_rows
+    FROM readings r
+    JOIN visits v ON v.id = r.visit_id
+    JOIN reading_status st ON st.id = r.id"""
+
+
+def view_readings(conn, site_id: int) -> list[dict]:
+    """Every reading version of a site, oldest id first, as the site views
+    (``interpret``) read them: the columns they use, the view columns of
+    schema 015 and the flags from ``reading_flags`` (``flag_list``: code and
+    severity, in the reading's order), without the result JSON."""
+    out = []
+    for row in conn.execute(_VIEW_SELECT + " WHERE r.site_id = ? ORDER BY r.id", (site_id,)):
+        d = dict(zip(row.keys(), row))
+        d["flags"] = [c for c in d["flags"].split(";") if c]
+        fl = d.pop("flag_rows")
+        sev = dict(x.split(" ", 1) for x in fl.split(";")) if fl else {}
+        d["flag_list"] = [{"code": c, "severity": sev.get(c)} for c in d["flags"]]
+        out.append(d)
+    return out
 
 def visits_for_site(conn, site_id: int) -> list[sqlite3.Row]:
     """The site's visits, newest first, with how many readings (all versions)
@@ -1267,9 +1325,11 @@ def finish_import_job(conn, job_id: int) -> int:
     try:
         for d in range(0 if top is None else top + 1):
             cur = conn.execute(
-                f"INSERT INTO readings ({cols}, site_id, visit_id, supersedes_id) "
+                f"INSERT INTO readings ({cols}, site_id, visit_id, supersedes_id, "
+                f"{', '.join(VIEW_COLUMNS)}) "
                 f"SELECT {picked}, m.site_id, m.visit_id, "
-                "(SELECT p.id FROM readings p WHERE p.uuid = st.supersedes_uuid) "
+                "(SELECT p.id FROM readings p WHERE p.uuid = st.supersedes_uuid), "
+                f"{_view_values_sql('st.result_json')} "
                 "FROM import_staging st JOIN temp.import_map m ON m.site = st.site "
                 "AND m.day = substr(st.taken_at, 1, 10) AND m.visited_by = st.visited_by "
                 "WHERE st.job_id = ? AND st.depth = ? ORDER BY st.seq",

@@ -45,8 +45,7 @@ def _site_state(conn, site) -> dict:
     from .. import interpret, store
     from .. import sites as sitecfg
     site = dict(site)
-    readings = [store.reading_dict(r)
-                for r in store.list_readings(conn, site_id=site["id"], newest_first=False)]
+    readings = store.view_readings(conn, site["id"])
     crop = interpret.site_crop(site)
     targets = store.list_targets(conn, crop.name) if crop else []
     site.setdefault("n_readings", len(readings))

@@ -24,8 +24,7 @@ MATRIX_MAX_SITES = 10
 
 
 def _site_readings(db, site_id: int) -> list[dict]:
-    rows = store.list_readings(db, site_id=site_id, newest_first=False)
-    return [store.reading_dict(r) for r in rows]
+    return store.view_readings(db, site_id)     # columns only, no result JSON
 
 
 def _svg(s: str) -> Markup | None:

@@ -62,8 +62,9 @@ def bench_convert(n: int = 1_000_000, repeat: int = 3, seed: int = 1) -> dict:
 
 # ---------------------------------------------------------------- a realistic log
 
-def _templates() -> list[dict]:
-    """Converted readings of the kinds a crew takes (invented values)."""
+def _templates(slips: bool = False) -> list[dict]:
+    """Converted readings of the kinds a crew takes (invented values); with
+    ``slips`` one in 41 is a unit slip (an error-level flag to check)."""
     from fieldapp.records import build_record
     payloads = []
     for i in range(40):
@@ -77,6 +78,9 @@ def _templates() -> list[dict]:
                          "compensated": True, "note": "north corner" if i % 4 == 0 else ""})
         payloads.append({"sample": "feed", "value": f"{1.5 + 0.05 * i:.2f}", "unit": "mS/cm",
                          "compensated": True})
+        if slips and i % 10 == 0:
+            payloads.append({"sample": "water", "value": f"{700 + 10 * i}", "unit": "dS/m",
+                             "temp_c": "20"})
     out = []
     for k, pl in enumerate(payloads):
         rec = build_record({**pl, "site": "Block 1"})
@@ -89,13 +93,13 @@ def _site_names(n: int = 40) -> list[str]:
         [f"Greenhouse B bench {i}" for i in range(1, n - n // 2 + 1)]
 
 
-def _rows(n: int, seed: int = 7):
+def _rows(n: int, seed: int = 7, slips: bool = False):
     """n reading records (dicts for the readings table) from the templates."""
     import datetime as dt
     import random
     import uuid
     rng = random.Random(seed)
-    temps = _templates()
+    temps = _templates(slips)
     sites = _site_names()
     start = dt.datetime(2025, 3, 1, 7, 0, tzinfo=dt.timezone(dt.timedelta(hours=2)))
     for i in range(n):
@@ -138,7 +142,7 @@ def _insert_plain(conn, rows) -> float:
                 "compensated": 1 if r.get("compensated") else 0,
                 "note": r.get("note") or "", "flags": r.get("flags") or ""}
         tuples.append(tuple(vals.get(c) for c in _COLS))
-    sql = f"INSERT INTO readings ({', '.join(_COLS)}) VALUES ({', '.join('?' * len(_COLS))})"
+    sql = store.readings_insert_sql(_COLS)      # the view columns (schema 015) from the same JSON
     t0 = time.perf_counter()
     conn.execute("BEGIN IMMEDIATE")
     conn.executemany(sql, tuples)
@@ -146,9 +150,10 @@ def _insert_plain(conn, rows) -> float:
     return time.perf_counter() - t0
 
 
-def make_log(folder, n: int) -> tuple[str, float]:
-    """A log of n readings in ``folder``; returns (database path, seconds the
-    bare executemany took)."""
+def make_log(folder, n: int, slips: bool = False) -> tuple[str, float]:
+    """A log of n readings in ``folder`` (``slips``: some with an error-level
+    flag, see :func:`_templates`); returns (database path, seconds the bare
+    executemany took)."""
     from pathlib import Path
 
     from fieldapp import store
@@ -157,7 +162,7 @@ def make_log(folder, n: int) -> tuple[str, float]:
     db = folder / store.DB_NAME
     conn = store.connect(db)
     try:
-        secs = _insert_plain(conn, _rows(n))
+        secs = _insert_plain(conn, _rows(n, slips=slips))
     finally:
         conn.close()
     return str(db), secs
