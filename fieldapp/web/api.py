@@ -5,7 +5,7 @@ from flask import Blueprint, current_app, g, jsonify, request
 
 from .. import labels, meters, records, sites, store
 from ..science import InputError, extracts, osmotic, tolerance, units
-from . import get_db
+from .db import get_db
 
 bp = Blueprint("api", __name__, url_prefix="/api")
 

@@ -10,7 +10,7 @@ from .. import csvio, store
 from .. import sites as sitecfg
 from ..science import extracts, tolerance, units
 from ..science.convert import CAUTIONS
-from . import get_db
+from .db import get_db
 
 bp = Blueprint("pages", __name__)
 
@@ -172,7 +172,7 @@ def _export_target(ext: str) -> tuple[int | None, str]:
 def export_csv():
     site_id, filename = _export_target("csv")
     # The generator keeps its own connection: the request's one closes at teardown.
-    from . import open_read_connection
+    from .db import open_read_connection
     conn = open_read_connection()
 
     def generate():
@@ -194,7 +194,7 @@ def export_xlsx():
     from flask import send_file
     from .. import xlsx
     site_id, filename = _export_target("xlsx")
-    from . import open_read_connection
+    from .db import open_read_connection
     conn = open_read_connection()
     tmp = tempfile.TemporaryFile()
     try:

@@ -379,7 +379,7 @@ def _paired_device():
     token = request.cookies.get(SESSION_COOKIE)
     if not token or len(token) > 200:
         return None
-    from . import get_db
+    from .db import get_db
     db = get_db()
     row = store.device_by_token(db, token_digest(token))
     if row is None:
@@ -516,7 +516,7 @@ def pair():
     if not typed:
         return jsonify(error="Type the code the laptop shows.", field="code"), 400
     label = " ".join(str(body.get("name") or "").split())[:60]
-    from . import get_db
+    from .db import get_db
     db = get_db()
     limiter = _limiter()
     with limiter.lock:
@@ -554,7 +554,7 @@ def pair():
 @bp.post("/pair/forget")
 def forget():
     """A paired device unpairs itself (a tablet handed back, a shared browser)."""
-    from . import get_db
+    from .db import get_db
     device = g.get("device")
     if device is not None:
         store.revoke_devices(get_db(), device["id"])
@@ -564,7 +564,7 @@ def forget():
 
 
 def _admin_state() -> dict:
-    from . import get_db
+    from .db import get_db
     from .. import qr
     db = get_db()
     code = current_code(db)
@@ -620,7 +620,7 @@ def devices_state():
 @bp.post("/pair/codes")
 def renew_code():
     _laptop_only()
-    from . import get_db
+    from .db import get_db
     new_code(get_db())
     st = _admin_state()
     return jsonify(code=st["code"], expires_at=st["expires_at"]), 201
@@ -629,21 +629,21 @@ def renew_code():
 @bp.post("/pair/codes/revoke")
 def revoke_codes():
     _laptop_only()
-    from . import get_db
+    from .db import get_db
     return jsonify(revoked=store.revoke_pairing_codes(get_db()))
 
 
 @bp.post("/pair/devices/<int:device_id>/revoke")
 def revoke_device(device_id):
     _laptop_only()
-    from . import get_db
+    from .db import get_db
     return jsonify(revoked=store.revoke_devices(get_db(), device_id))
 
 
 @bp.post("/pair/devices/revoke")
 def revoke_all_devices():
     _laptop_only()
-    from . import get_db
+    from .db import get_db
     return jsonify(revoked=store.revoke_devices(get_db()))
 
 

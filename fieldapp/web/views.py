@@ -14,7 +14,7 @@ from markupsafe import Markup
 from .. import charts, interpret, meters, store
 from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
-from . import get_db
+from .db import get_db
 
 bp = Blueprint("views", __name__)
 
