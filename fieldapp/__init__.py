@@ -44,7 +44,7 @@ def create_app(config: dict | None = None):
     """
     from flask import Flask
 
-    from .web import api, pages, register_common
+    from .web import register_blueprints, register_common
 
     app = Flask(__name__, template_folder=str(resource_dir("templates")),
                 static_folder=str(resource_dir("static")), static_url_path="/static")
@@ -58,8 +58,5 @@ def create_app(config: dict | None = None):
     register_common(app)     # the log (web/db.py: checked, migrated), filters, errors
     from .web.security import register_security
     register_security(app)   # headers, CSRF, LAN pairing (config LAN=True), /pair
-    app.register_blueprint(pages.bp)
-    app.register_blueprint(api.bp)
-    from .web import views
-    app.register_blueprint(views.bp)
+    register_blueprints(app)  # readings, sites, meters, views: each its HTML and its JSON
     return app

@@ -37,3 +37,15 @@ def register_common(app) -> None:
     db.init_app(app)
     register_filters(app)
     errors.register(app)
+
+
+def register_blueprints(app) -> None:
+    """One blueprint per concern, each serving its pages and its JSON:
+    readings (the entry page, /api/preview, /api/readings, the downloads),
+    sites (the sites list, a site's log and settings, /api/sites), meters
+    (/meters, /api/meters, /api/calibrations) and views (a site's summary,
+    its report, the map, /api/targets). Pairing (/pair) comes with the
+    request checks in ``security``."""
+    from . import meters, readings, sites, views
+    for module in (readings, sites, meters, views):
+        app.register_blueprint(module.bp)
