@@ -44,7 +44,7 @@ def create_app(config: dict | None = None):
     """
     from flask import Flask
 
-    from .web import register_blueprints, register_common
+    from . import web
 
     app = Flask(__name__, template_folder=str(resource_dir("templates")),
                 static_folder=str(resource_dir("static")), static_url_path="/static")
@@ -55,8 +55,7 @@ def create_app(config: dict | None = None):
     )
     if config:
         app.config.update(config)
-    register_common(app)     # the log (web/db.py: checked, migrated), filters, errors
-    from .web.security import register_security
-    register_security(app)   # headers, CSRF, LAN pairing (config LAN=True), /pair
-    register_blueprints(app)  # readings, sites, meters, views: each its HTML and its JSON
+    # the log (checked, migrated), error answers, request checks and headers,
+    # LAN pairing (config LAN=True) and one blueprint per concern
+    web.init_app(app)
     return app

@@ -61,7 +61,8 @@ def test_init_db_migrates_an_old_log_and_keeps_its_rows(tmp_path):
     for stmt in store._split_sql(first[1]):
         conn.execute(stmt)
     conn.execute(f"PRAGMA user_version = {first[0]:d}")
-    conn.execute("INSERT INTO sites (name, created_at) VALUES ('Block 3', '2026-05-14T08:00:00+00:00')")
+    conn.execute("INSERT INTO sites (name, created_at) VALUES (?, ?)",
+                 ("Block 3", "2026-05-14T08:00:00+00:00"))
     conn.close()
     r = run("init-db", "--data", folder)
     assert r.exit_code == 0, r.stderr

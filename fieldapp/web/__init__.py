@@ -1,8 +1,7 @@
-"""Web layer: blueprints for pages and the JSON API. Thin: they call
+"""Web layer: one blueprint per concern (readings, sites, meters, views,
+pairing), each serving its HTML and its JSON. Thin: they call
 ``records``/``science`` and ``store``, nothing else computes here.
-
-``db`` holds the request's connection (get_db/close_db) and opens the log at
-start; ``errors`` every error answer."""
+``init_app(app)`` installs it all; ``db`` holds the request's connection."""
 from __future__ import annotations
 
 from ..interpret import short_number
@@ -30,22 +29,22 @@ def register_filters(app) -> None:
     app.add_template_filter(labels.sample_label, "sample_label")
 
 
-def register_common(app) -> None:
-    """The log (checked and migrated at start), the template filters and the
-    error answers."""
-    from . import db, errors
+def init_app(app) -> None:
+    """Install the web layer on ``app``, in this order: the log (``db``:
+    checked and migrated at start, one connection per request, writes refused
+    while it is read-only), the template filters, the error answers
+    (``errors``), the request checks and headers (``security``), pairing
+    (``pairing``: the LAN gate and /pair), then one blueprint per concern,
+    each serving its pages and its JSON: readings (the entry page,
+    /api/preview, /api/readings, the downloads), sites (the sites list, a
+    site's log and settings, /api/sites), meters (/meters, /api/meters,
+    /api/calibrations) and views (a site's summary, its report, the map,
+    /api/targets)."""
+    from . import db, errors, meters, pairing, readings, security, sites, views
     db.init_app(app)
     register_filters(app)
     errors.register(app)
-
-
-def register_blueprints(app) -> None:
-    """One blueprint per concern, each serving its pages and its JSON:
-    readings (the entry page, /api/preview, /api/readings, the downloads),
-    sites (the sites list, a site's log and settings, /api/sites), meters
-    (/meters, /api/meters, /api/calibrations) and views (a site's summary,
-    its report, the map, /api/targets). Pairing (/pair) comes with the
-    request checks in ``security``."""
-    from . import meters, readings, sites, views
+    security.init_app(app)
+    pairing.init_app(app)
     for module in (readings, sites, meters, views):
         app.register_blueprint(module.bp)

@@ -1,6 +1,7 @@
 """What the server answers when a request fails: a JSON ``{error, field}`` to
 the API and the CSV download, a plain page to a person, never a traceback
-(that goes to the server's log). ``register(app)`` installs every handler."""
+(that goes to the server's log). ``register(app)`` installs every handler:
+the log's (damaged, unwritable), bad input's, and the request checks'."""
 from __future__ import annotations
 
 import os
@@ -12,6 +13,7 @@ from flask import current_app, jsonify, render_template, request
 
 from .. import store
 from ..science import InputError
+from .security import TooDeep, refuse
 
 
 def _wants_json() -> bool:
@@ -89,9 +91,35 @@ def server_error(e):
     return render_template("error.html", message="Something went wrong on the server."), 500
 
 
+# Refusals of the request checks (security.py): JSON to a script, the
+# refusal page to a person.
+
+def forbidden(e):
+    return refuse(403, "This page is for the laptop the server runs on.")
+
+
+def unsupported(e):
+    return refuse(415, "Send the data as JSON (Content-Type: application/json).", "body")
+
+
+def too_deep(e):
+    return refuse(400, "The request could not be read; send JSON.", "body")
+
+
+def not_text(e):
+    return refuse(400, "The request holds text that is not valid Unicode.")
+
+
+def overflow(e):
+    return refuse(400, "A number in the request is too large; check the digits.")
+
+
 def register(app) -> None:
     for key, handler in ((sqlite3.DatabaseError, damaged), (InputError, input_error),
                          (store.StoreError, store_error), (sqlite3.OperationalError, db_error),
                          (404, not_found), (405, bad_method), (413, too_large),
-                         (400, bad_request), (500, server_error)):
+                         (400, bad_request), (500, server_error),
+                         (403, forbidden), (415, unsupported), (TooDeep, too_deep),
+                         (RecursionError, too_deep), (UnicodeError, not_text),
+                         (OverflowError, overflow)):
         app.register_error_handler(key, handler)
