@@ -35,40 +35,6 @@ def default_data_dir() -> Path:
     return Path(user_data_dir("fieldapp", appauthor=False))
 
 
-def open_log_at_start(db_path: str) -> str | None:
-    """Check the log before anything writes to it; migrate it when sound.
-
-    Returns None (the log takes writes), or why the server serves it
-    read-only: damaged (SQLite quick_check) or, when its schema is already
-    current, a read-only folder or a full disk; pages, export and backup to
-    another folder keep working then. An empty file, a foreign or newer
-    database, or a damaged first page raise StoreError: nothing is touched."""
-    from . import store
-    state = store.inspect_log(db_path)
-    if state["state"] == "refused":
-        raise store.StoreError(state["problem"], status=503)
-    if state["state"] == "damaged":
-        return state["problem"]
-    try:
-        store.connect(db_path, check=False).close()       # migrate now, fail early
-    except store.StoreError as e:
-        why = getattr(e, "unwritable", None)
-        if not why or state["state"] != "ok":
-            raise
-        conn = store.connect_readonly(db_path)
-        try:
-            current = conn.execute("PRAGMA user_version").fetchone()[0]
-        finally:
-            conn.close()
-        if current < max(v for v, _ in store._migrations()):
-            raise store.StoreError(f"{e.message} (The log needs a schema update, which "
-                                   "must write.)", status=503) from None
-        return (f"fieldapp cannot write to the log: {why}. Pages, the export and backup to "
-                "another folder keep working; saves wait on the tablets until there is room "
-                "or the folder is writable, then restart the server.")
-    return None
-
-
 def create_app(config: dict | None = None):
     """Build the Flask application.
 
@@ -78,8 +44,7 @@ def create_app(config: dict | None = None):
     """
     from flask import Flask
 
-    from . import store
-    from .web import api, pages, register_common
+    from . import web
 
     app = Flask(__name__, template_folder=str(resource_dir("templates")),
                 static_folder=str(resource_dir("static")), static_url_path="/static")
@@ -90,16 +55,7 @@ def create_app(config: dict | None = None):
     )
     if config:
         app.config.update(config)
-    data_dir = Path(app.config["DATA_DIR"])
-    data_dir.mkdir(parents=True, exist_ok=True)
-    app.config["DATABASE"] = str(data_dir / store.DB_NAME)
-    app.config["LOG_READ_ONLY"] = open_log_at_start(app.config["DATABASE"])
-
-    register_common(app)
-    from .web.security import register_security
-    register_security(app)   # headers, CSRF, LAN pairing (config LAN=True), /pair
-    app.register_blueprint(pages.bp)
-    app.register_blueprint(api.bp)
-    from .web import views
-    app.register_blueprint(views.bp)
+    # the log (checked, migrated), error answers, request checks and headers,
+    # LAN pairing (config LAN=True) and one blueprint per concern
+    web.init_app(app)
     return app

@@ -19,7 +19,8 @@ def _data_dir(a):
 def cmd_serve(a) -> int:
     import waitress
     from . import create_app, demo, store
-    from .web.security import binds_to_network, start_lan
+    from .web.pairing import start_lan
+    from .web.security import binds_to_network
     bind = a.host or ("0.0.0.0" if a.lan else "127.0.0.1")
     lan = a.lan or binds_to_network(bind)      # never on the network without pairing
     try:

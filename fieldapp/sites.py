@@ -2,7 +2,7 @@
 notes; how a settings form or JSON body becomes validated values; and how the
 kept history of those settings reads on screen.
 
-Pure: no Flask, no SQL. ``web/api.py`` validates with :func:`validate_settings`,
+Pure: no Flask, no SQL. ``web/sites.py`` validates with :func:`validate_settings`,
 ``store`` writes the change and its history rows in one transaction, and the
 pages show :func:`describe_change` lines.
 """

@@ -141,7 +141,7 @@ def ca_fingerprint(data_dir) -> str:
 
 def laptop_names(extra=()) -> tuple[list[str], list[str]]:
     """(DNS names, IP addresses) the server certificate must carry."""
-    from .web.security import lan_addresses
+    from .lan import lan_addresses
     dns = ["localhost"]
     host = (socket.gethostname() or "").strip().lower()
     if host and host != "localhost":
@@ -271,7 +271,7 @@ def start_https(app, host: str, port: int, data_dir, extra_names=()) -> HttpsSer
     """Serve ``app`` over https on ``host:port`` in background threads and
     keep its certificate current; the caller calls ``.stop()`` on the way out.
     Sets ``app.config`` HTTPS_PORT and CA_FINGERPRINT, which the pairing pages
-    and ``security.start_lan`` read. When the port cannot be opened it says
+    and ``web.pairing.start_lan`` read. When the port cannot be opened it says
     so and returns a handle that serves nothing: tablets keep plain http."""
     from cheroot import wsgi
     from cheroot.ssl.builtin import BuiltinSSLAdapter

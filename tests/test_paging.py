@@ -110,9 +110,9 @@ def test_sites_are_paged_by_name(client, db):
 
 
 def test_site_log_shows_latest_page_with_older_on_demand(client, app):
-    from fieldapp.web import pages
+    from fieldapp.web import sites as site_pages
     first = save(client, reading("Block 3", 0, value="7.77"))
-    for m in range(1, pages.READINGS_PER_PAGE + 20):
+    for m in range(1, site_pages.READINGS_PER_PAGE + 20):
         save(client, reading("Block 3", m))
     # a correction of the oldest reading, taken now: the earlier version is on the last page
     r = client.post(f"/api/readings/{first['uuid']}/correct",
@@ -121,14 +121,14 @@ def test_site_log_shows_latest_page_with_older_on_demand(client, app):
     sid = first["site_id"]
     html = client.get(f"/sites/{sid}").get_data(as_text=True)
     shown = re.findall(r'<article class="reading[^"]*" data-uuid="([^"]+)"', html)
-    assert len(shown) == pages.READINGS_PER_PAGE
+    assert len(shown) == site_pages.READINGS_PER_PAGE
     assert 'class="versions"' in html and "7.77" in html     # earlier version looked up
     m = re.search(r'id="older-readings" rel="next" href="([^"]+)"', html)
     assert m, "no link to older readings"
     older = client.get(m.group(1).replace("&amp;", "&")).get_data(as_text=True)
     rest = re.findall(r'<article class="reading[^"]*" data-uuid="([^"]+)"', older)
     assert not set(shown) & set(rest)
-    assert len(shown) + len(rest) == pages.READINGS_PER_PAGE + 21
+    assert len(shown) + len(rest) == site_pages.READINGS_PER_PAGE + 21
     assert 'id="older-readings"' not in older and 'id="newest-readings"' in older
     assert client.get(f"/sites/{sid}?after=garbage").status_code == 404
 

@@ -10,7 +10,8 @@ from urllib.parse import urljoin, urlsplit
 import pytest
 
 from fieldapp import create_app
-from fieldapp.web import security
+from fieldapp.web import limiter as limits
+from fieldapp.web import pairing, security
 
 TABLET_HOST = {"Host": "192.0.2.10:8080"}            # TEST-NET-1 (RFC 5737): never contacted
 HOSTILE_NEXT = ["/\t/evil.example/", "/%09/evil.example/", "/\n/evil.example", "//evil.example",
@@ -115,7 +116,7 @@ def test_the_limiter_survives_a_restart(tmp_path):
     cfg = {"TESTING": True, "DATA_DIR": str(tmp_path / "lan"), "LAN": True}
     app = create_app(cfg)
     code = new_code(app)
-    for _ in range(security.FAILS_PER_ADDRESS):
+    for _ in range(limits.FAILS_PER_ADDRESS):
         assert pair(app, "WRNG-CODE", ip="192.0.2.40").status_code == 403
     again = create_app(cfg)                               # the laptop restarts
     assert pair(again, code, ip="192.0.2.40").status_code == 429
@@ -133,8 +134,8 @@ def test_a_parallel_burst_is_counted_one_by_one(lan_app):
         t.start()
     for t in threads:
         t.join()
-    assert answers.count(403) == security.FAILS_PER_ADDRESS       # checked: exactly 5
-    assert answers.count(429) == 12 - security.FAILS_PER_ADDRESS
+    assert answers.count(403) == limits.FAILS_PER_ADDRESS       # checked: exactly 5
+    assert answers.count(429) == 12 - limits.FAILS_PER_ADDRESS
 
 
 def test_a_code_pairs_a_bounded_number_of_devices(tmp_path):
@@ -146,7 +147,7 @@ def test_a_code_pairs_a_bounded_number_of_devices(tmp_path):
     r = pair(app, code, ip="192.0.2.70")
     assert r.status_code == 409 and "new code" in r.get_json()["error"]
     assert pair(app, new_code(app), ip="192.0.2.70").status_code == 200
-    assert security.DEVICES_PER_CODE == 10
+    assert pairing.DEVICES_PER_CODE == 10
 
 
 def test_an_idle_pairing_expires_and_the_devices_page_shows_last_seen(lan_app):
@@ -170,4 +171,4 @@ def test_an_idle_pairing_expires_and_the_devices_page_shows_last_seen(lan_app):
     assert r.status_code == 401
     page = lan_app.test_client().get("/pair/devices").get_data(as_text=True)
     assert "last seen" in page and "2020-01-01 00:00" in page
-    assert security.PAIRING_IDLE_DAYS == 90
+    assert pairing.PAIRING_IDLE_DAYS == 90

@@ -12,7 +12,8 @@ import sqlite3
 import pytest
 
 from fieldapp import create_app, csvio, qr, store
-from fieldapp.web import security
+from fieldapp.web import limiter as limits
+from fieldapp.web import pairing, security
 
 TABLET_ENV = {"REMOTE_ADDR": "192.0.2.20"}             # TEST-NET-1 (RFC 5737): never contacted
 TABLET_HOST = {"Host": "192.0.2.10:8080"}
@@ -353,7 +354,7 @@ def test_pairing_gives_a_session_that_can_be_revoked(lan_app):
     assert t.get("/api/sites", headers=TABLET_HOST).status_code == 401
     # a forged or stale cookie is nobody
     t2 = tablet(lan_app)
-    t2.set_cookie(security.SESSION_COOKIE, token, domain="192.0.2.10")
+    t2.set_cookie(pairing.SESSION_COOKIE, token, domain="192.0.2.10")
     assert t2.get("/api/sites", headers=TABLET_HOST).status_code == 401
 
 
@@ -382,22 +383,22 @@ def test_codes_are_revocable_renewable_and_expire(lan_app):
 
 def test_wrong_codes_are_rate_limited_per_address_and_overall(lan_app):
     now = [1000.0]
-    limiter = security.FailureLimiter(clock=lambda: now[0])
+    limiter = limits.FailureLimiter(clock=lambda: now[0])
     lan_app.extensions["fieldapp_pairing_limiter"] = limiter
     code = new_code(lan_app)
     t = tablet(lan_app)
-    for _ in range(security.FAILS_PER_ADDRESS):
+    for _ in range(limits.FAILS_PER_ADDRESS):
         assert pair(t, "WRNG-CODE").status_code == 403
     r = pair(t, code)                                      # even the right code must wait
     assert r.status_code == 429 and int(r.headers["Retry-After"]) > 0
     assert "Too many" in r.get_json()["error"]
     assert pair(tablet(lan_app), code, ip="192.0.2.99").status_code == 200   # others may
-    now[0] += security.FAIL_WINDOW_S + 1                   # the window passes
+    now[0] += limits.FAIL_WINDOW_S + 1                   # the window passes
     assert pair(t, code).status_code == 200
     # many addresses together hit the overall limit: every address that typed a
     # wrong code waits, but one that did not is still heard (issue 11: a right
     # code must never be locked out by others)
-    for i in range(security.FAILS_OVERALL):
+    for i in range(limits.FAILS_OVERALL):
         pair(tablet(lan_app), "WRNG-CODE", ip=f"198.51.100.{i + 1}")
     assert pair(tablet(lan_app), code, ip="198.51.100.1").status_code == 429
     assert pair(tablet(lan_app), code, ip="203.0.113.5").status_code == 200
@@ -435,13 +436,13 @@ def test_admin_page_shows_the_code_and_a_qr_code_of_the_address(lan_app):
 
 
 def test_start_lan_makes_a_code_and_prints_where_to_go(lan_app, capsys):
-    lines = security.start_lan(lan_app, "192.0.2.10", 8080)
+    lines = pairing.start_lan(lan_app, "192.0.2.10", 8080)
     text = "\n".join(lines)
     code = lan_app.test_client().get("/pair/state").get_json()["code"]
     assert code and code in text and "http://192.0.2.10:8080/pair" in text
     assert "password" in text                              # the hotspot advice
     # at the next start the same code is shown, not a new one
-    assert code in "\n".join(security.start_lan(lan_app, "192.0.2.10", 8080))
+    assert code in "\n".join(pairing.start_lan(lan_app, "192.0.2.10", 8080))
 
 
 # ------------------------------------------------------------ QR code

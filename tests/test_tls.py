@@ -97,7 +97,7 @@ def test_the_server_certificate_names_the_laptop_and_verifies(https_app):
     assert "localhost" in dns and TEST_NAME in dns and "127.0.0.1" in ips
     host = socket.gethostname().lower()
     assert host in dns
-    from fieldapp.web.security import lan_addresses
+    from fieldapp.lan import lan_addresses
     assert set(lan_addresses()) <= set(ips)
     ca = data / "tls" / "ca.crt"
     for name in (TEST_NAME, "localhost", "127.0.0.1"):           # OpenSSL checks chain and name
@@ -176,7 +176,7 @@ def test_an_unpaired_client_over_https_gets_401_but_may_fetch_the_certificate(ht
 
 def test_pairing_over_https_gives_a_secure_cookie_and_the_http_page_shows_the_steps(https_app):
     app, h, data = https_app
-    from fieldapp.web import security
+    from fieldapp.web import pairing
     c = app.test_client()
     code = c.post("/pair/codes", json={}).get_json()["code"]
     tab = app.test_client()
@@ -194,7 +194,7 @@ def test_pairing_over_https_gives_a_secure_cookie_and_the_http_page_shows_the_st
     assert "Android" in html and "iPad" in html and "reload" in html
     # the laptop's page: the same fingerprint, the QR code carries the https address
     app.config["LAN_URLS"] = ["http://192.0.2.10:8080"]
-    lines = security.start_lan(app, "192.0.2.10", 8080)
+    lines = pairing.start_lan(app, "192.0.2.10", 8080)
     assert any(f"https://192.0.2.10:{h.port}/pair" in x for x in lines)
     admin = c.get("/pair/devices").get_data(as_text=True)
     assert app.config["CA_FINGERPRINT"] in admin

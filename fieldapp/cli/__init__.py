@@ -6,7 +6,7 @@
     fieldapp readings list [--site NAME] [--from DATE] [--to DATE] [--kind KIND]
     fieldapp void UUID --reason "..." ; correct UUID --value 1.3 ; ack UUID CODE --note "..."
     fieldapp meters list | add | show ; calibrate METER VALUE UNIT ; targets list | set | delete
-    fieldapp export | import | backup | restore | demo | serve | bench
+    fieldapp export | import | backup | restore | demo | serve | init-db | bench
 
 Every command goes through the functions the web API calls (records, store,
 meters, sites, interpret), never a second implementation. Listing commands

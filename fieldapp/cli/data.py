@@ -1,5 +1,5 @@
-"""The log as a whole: serve it, export, import, back up, restore, load the
-demo; and the benchmarks of a checkout."""
+"""The log as a whole: serve it, create or migrate it (init-db), export, import,
+back up, restore, load the demo; and the benchmarks of a checkout."""
 from __future__ import annotations
 
 import sys
@@ -113,6 +113,29 @@ def import_(file, data):
                              "file") from None
     click.echo(f"fieldapp: imported {counts['added']} new readings, {counts['skipped']} already "
                f"in the log, {counts['voided']} voids.", err=True)
+    return 0
+
+
+@cli.command("init-db")
+@data_option
+def init_db(data):
+    """Create the log, or bring its schema up to date (the server also does this
+    at start). A damaged, foreign or newer file is refused and left as it is."""
+    from pathlib import Path
+
+    from .. import store
+    from ..web.db import init_db as init
+    folder = Path(data_dir(data))
+    folder.mkdir(parents=True, exist_ok=True)
+    before, now = init(folder / store.DB_NAME)
+    where = folder / store.DB_NAME
+    if before is None:
+        click.echo(f"fieldapp: new log at {where} (schema {now}).", err=True)
+    elif before == now:
+        click.echo(f"fieldapp: the log at {where} is up to date (schema {now}).", err=True)
+    else:
+        click.echo(f"fieldapp: the log at {where} went from schema {before} to {now}.",
+                   err=True)
     return 0
 
 

@@ -1,5 +1,6 @@
-"""Site views: what the readings mean (summary, charts), the printable visit
-report, the offline map, and the user's target ranges.
+"""Site views: what the readings mean (summary, charts, and /api/sites/<id>/summary),
+the printable visit report, the offline map, and the user's target ranges
+(/api/targets).
 
 Thin like the other blueprints: the numbers come from ``interpret`` (pure),
 the pictures from ``charts`` (pure SVG), the rows from ``store``.
@@ -8,13 +9,14 @@ from __future__ import annotations
 
 import datetime as dt
 
-from flask import Blueprint, abort, current_app, jsonify, render_template, request, url_for
+from flask import Blueprint, abort, jsonify, render_template, request, url_for
 from markupsafe import Markup
 
 from .. import charts, interpret, meters, store
 from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
-from . import get_db
+from .db import get_db
+from .helpers import max_age_days
 
 bp = Blueprint("views", __name__)
 
@@ -56,7 +58,7 @@ def site_view(db, site) -> dict:
         "measures": interpret.TARGET_MEASURES,
         "crop": crop.name if crop else None,
         "report_url": url_for("views.report", site_id=site["id"]),
-        "settings_url": url_for("pages.site_settings", site_id=site["id"]),
+        "settings_url": url_for("sites.site_settings", site_id=site["id"]),
         "map_url": url_for("views.map_page"),
         "has_visits": bool(visits),
         "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
@@ -76,10 +78,6 @@ def _report_cautions(readings) -> list[str]:
     if "water" in kinds:
         out.append(tolerance.LEACHING_CAUTION)
     return list(dict.fromkeys(out))
-
-
-def _max_age_days() -> float:
-    return float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS", meters.DEFAULT_MAX_AGE_DAYS))
 
 
 def meter_checks(db, readings, max_age_days: float) -> list[dict]:
@@ -143,7 +141,7 @@ def report(site_id):
                                                        highlight=day))
         prof = interpret.profile_spec(site, all_readings, day=day)
         profile = prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))}
-        checks = meter_checks(db, readings, _max_age_days())
+        checks = meter_checks(db, readings, max_age_days())
     sv = None
     if summary is not None:
         sv = {"s": summary, "charts": figures, "profile": profile, "targets": [],
@@ -155,7 +153,7 @@ def report(site_id):
         summary=sv,
         cautions=_report_cautions(readings),
         printed_at=sitecfg.local_time_text(), kind_label=sitecfg.kind_label(site["kind"]),
-        meter_checks=checks, max_age_days=_max_age_days(),
+        meter_checks=checks, max_age_days=max_age_days(),
         status_counts={k: sum(1 for r in readings if r["status"] == k)
                        for k in ("current", "corrected", "void")})
 
@@ -170,10 +168,10 @@ def map_data(site_rows) -> dict:
         if s["latitude"] is not None and s["longitude"] is not None:
             placed.append({"id": s["id"], "name": s["name"], "lat": s["latitude"],
                            "lon": s["longitude"], "n": len(placed) + 1, "kind": s["kind"],
-                           "url": url_for("pages.site_log", site_id=s["id"])})
+                           "url": url_for("sites.site_log", site_id=s["id"])})
         else:
             unplaced.append({"id": s["id"], "name": s["name"],
-                             "url": url_for("pages.site_log", site_id=s["id"])})
+                             "url": url_for("sites.site_log", site_id=s["id"])})
     matrix = charts.distance_matrix(placed)
     nearest = []
     for i, s in enumerate(placed):

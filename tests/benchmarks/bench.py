@@ -286,7 +286,7 @@ def _bench_server(data_dir: str, port: int, threads: int = 8) -> None:
 
     @app.post("/bench/floor")
     def floor():
-        from fieldapp.web import get_db
+        from fieldapp.web.db import get_db
         db = get_db()
         with store.transaction(db):
             cur = db.execute("INSERT INTO bench_floor (v) VALUES (?)", ("x",))

@@ -1,0 +1,138 @@
+"""The log's connection for each request, in the Flask tutorial's shape.
+
+``get_db()`` opens the request's connection on first use and ``close_db()``
+closes it when the request ends; ``init_app(app)`` checks and migrates the log
+once at start (``open_log_at_start``) and installs both. ``init_db(path)``
+creates a log or brings its schema up to date, for ``fieldapp init-db``.
+SQL itself lives in ``fieldapp.store``; nothing here builds a query.
+"""
+from __future__ import annotations
+
+import sqlite3
+from pathlib import Path
+
+from flask import current_app, g, jsonify, request
+
+from .. import store
+
+
+def get_db() -> sqlite3.Connection:
+    """The request's connection, opened on first use and closed at teardown.
+
+    A log served read-only (damaged, or found unwritable at start) gets a
+    connection that cannot write. A reading request (GET, HEAD) whose normal
+    connection cannot even read (a folder made read-only or a disk filled
+    while the server runs) falls back to a read-only one, so every page and
+    the export keep working for rescue; a save then answers 503."""
+    if "db" not in g:
+        if request.method in ("GET", "HEAD") or current_app.config.get("LOG_READ_ONLY"):
+            g.db = open_read_connection()
+        else:
+            g.db = store.connect(current_app.config["DATABASE"], upgrade=False)
+    return g.db
+
+
+def open_read_connection() -> sqlite3.Connection:
+    """A connection for reading: the normal one when it can read, else one that
+    cannot write (a damaged log, a read-only folder, a full disk). The caller
+    closes it (a streamed export keeps its own past the request's teardown)."""
+    path = current_app.config["DATABASE"]
+    if current_app.config.get("LOG_READ_ONLY"):
+        return store.connect_readonly(path)
+    conn = None
+    try:
+        conn = store.connect(path, upgrade=False)
+        conn.execute("SELECT count(*) FROM sqlite_master").fetchone()
+        return conn
+    except sqlite3.OperationalError:
+        if conn is not None:
+            conn.close()
+        return store.connect_readonly(path)
+
+
+def close_db(exc=None):
+    db = g.pop("db", None)
+    if db is not None:
+        db.close()
+
+
+def open_log_at_start(db_path: str) -> str | None:
+    """Check the log before anything writes to it; migrate it when sound.
+
+    Returns None (the log takes writes), or why the server serves it
+    read-only: damaged (SQLite quick_check) or, when its schema is already
+    current, a read-only folder or a full disk; pages, export and backup to
+    another folder keep working then. An empty file, a foreign or newer
+    database, or a damaged first page raise StoreError: nothing is touched."""
+    state = store.inspect_log(db_path)
+    if state["state"] == "refused":
+        raise store.StoreError(state["problem"], status=503)
+    if state["state"] == "damaged":
+        return state["problem"]
+    try:
+        store.connect(db_path, check=False).close()       # migrate now, fail early
+    except store.StoreError as e:
+        why = getattr(e, "unwritable", None)
+        if not why or state["state"] != "ok":
+            raise
+        conn = store.connect_readonly(db_path)
+        try:
+            current = conn.execute("PRAGMA user_version").fetchone()[0]
+        finally:
+            conn.close()
+        if current < max(v for v, _ in store._migrations()):
+            raise store.StoreError(f"{e.message} (The log needs a schema update, which "
+                                   "must write.)", status=503) from None
+        return (f"fieldapp cannot write to the log: {why}. Pages, the export and backup to "
+                "another folder keep working; saves wait on the tablets until there is room "
+                "or the folder is writable, then restart the server.")
+    return None
+
+
+def init_db(db_path: str | Path) -> tuple[int | None, int]:
+    """Create the log at ``db_path`` or bring its schema up to date.
+
+    Returns (the schema version before, or None for a new log; the version
+    now). An empty, damaged, foreign or newer file raises StoreError and is
+    left untouched (``store.connect`` checks it before anything writes)."""
+    path = Path(db_path)
+    state = store.inspect_log(path)
+    if state["state"] in ("refused", "damaged"):
+        raise store.StoreError(state["problem"], status=503)
+    before = None
+    if state["state"] == "ok":
+        conn = store.connect_readonly(path)
+        try:
+            before = conn.execute("PRAGMA user_version").fetchone()[0]
+        finally:
+            conn.close()
+    conn = store.connect(path)                            # applies every newer migration
+    try:
+        return before, conn.execute("PRAGMA user_version").fetchone()[0]
+    finally:
+        conn.close()
+
+
+def _refuse_writes_when_read_only():
+    problem = current_app.config.get("LOG_READ_ONLY")
+    if problem and request.method in ("POST", "PUT", "PATCH", "DELETE"):
+        return jsonify(error=problem + " Your reading is kept on this device.",
+                       field=None, read_only=True), 503
+
+
+def _log_problem() -> dict:
+    return {"log_problem": current_app.config.get("LOG_READ_ONLY")}
+
+
+def init_app(app) -> None:
+    """Open the log in ``DATA_DIR`` (made if missing), check and migrate it
+    (``LOG_READ_ONLY`` says why writes are refused, or None), close each
+    request's connection at teardown, refuse writes to a read-only log (503)
+    and name its problem to every page (``log_problem``)."""
+    data_dir = Path(app.config["DATA_DIR"])
+    data_dir.mkdir(parents=True, exist_ok=True)
+    app.config["DATABASE"] = str(data_dir / store.DB_NAME)
+    app.config["LOG_READ_ONLY"] = open_log_at_start(app.config["DATABASE"])
+    app.teardown_appcontext(close_db)
+    app.before_request(_refuse_writes_when_read_only)
+    app.context_processor(_log_problem)
