@@ -58,6 +58,14 @@ def type_site(page, name):
     page.dispatch_event("#site", "change")
 
 
+def type_reading(page, site, sample, unit):
+    """Site, sample kind and unit of a reading from a meter that compensates (ATC)."""
+    type_site(page, site)
+    page.select_option("#sample", sample)
+    page.select_option("#unit", unit)
+    page.check("#compensated")
+
+
 @SIZES
 def test_a_refused_save_stays_beside_its_field_until_it_changes(browser, server, size):
     ctx, page = new_page(browser, size)
@@ -147,10 +155,7 @@ def test_a_hung_laptop_and_three_taps_store_one_reading(browser, tmp_path):
     hung = None
     try:
         page.goto(srv.url + "/")
-        type_site(page, "Farm A well 2")
-        page.select_option("#sample", "water")
-        page.select_option("#unit", "dS/m")
-        page.check("#compensated")
+        type_reading(page, "Farm A well 2", "water", "dS/m")
         page.fill("#value", "1.2")
         page.wait_for_selector("#preview dl.results")
         srv.stop()
@@ -219,10 +224,7 @@ def test_a_correction_may_change_the_time_on_purpose(browser, server):
 def test_an_error_flag_needs_one_deliberate_tap_and_is_recorded(browser, server, size):
     ctx, page = new_page(browser, size)
     page.goto(server.url + "/")
-    type_site(page, "Farm A well 2")
-    page.select_option("#sample", "water")
-    page.select_option("#unit", "mS/cm")
-    page.check("#compensated")
+    type_reading(page, "Farm A well 2", "water", "mS/cm")
     page.fill("#value", "350")            # tap water typed with the wrong unit
     page.wait_for_selector("#preview li.flag.error[data-code='unit_slip']")
     page.click("#save")
@@ -244,10 +246,7 @@ def test_an_error_flag_needs_one_deliberate_tap_and_is_recorded(browser, server,
 def test_the_fix_button_avoids_the_extra_tap(browser, server):
     ctx, page = new_page(browser, PHONE_390)
     page.goto(server.url + "/")
-    type_site(page, "Farm A well 2")
-    page.select_option("#sample", "water")
-    page.select_option("#unit", "mS/cm")
-    page.check("#compensated")
+    type_reading(page, "Farm A well 2", "water", "mS/cm")
     page.fill("#value", "350")
     page.click("#preview button[data-fix-unit]")
     page.wait_for_function("() => !document.querySelector(\"#preview li.flag[data-code='unit_slip']\")"
@@ -267,10 +266,7 @@ def test_a_reading_saved_offline_that_arrives_flagged_is_shown_until_settled(bro
         page.goto(srv.url + "/")
         assert page.evaluate("navigator.serviceWorker.ready.then(() => true)")
         srv.stop()
-        type_site(page, "Farm A well 2")
-        page.select_option("#sample", "water")
-        page.select_option("#unit", "mS/cm")
-        page.check("#compensated")
+        type_reading(page, "Farm A well 2", "water", "mS/cm")
         page.fill("#value", "350")
         page.click("#save")                  # no server: no checks now, kept on the device
         wait_text(page, "#saved", "waits on this device")
@@ -347,10 +343,7 @@ def test_save_and_its_confirmation_are_on_screen_without_scrolling(browser, serv
     header = page.evaluate("document.querySelector('header.top').getBoundingClientRect().height")
     assert header <= 64, header                      # one compact row
     assert in_view(page, "#save")
-    type_site(page, "Bench 4")
-    page.select_option("#sample", "feed")
-    page.select_option("#unit", "mS/cm")
-    page.check("#compensated")
+    type_reading(page, "Bench 4", "feed", "mS/cm")
     for v in ("2.1", "2.3", "2.5"):
         page.fill("#value", v)
         page.wait_for_selector("#preview dl.results")
@@ -367,10 +360,7 @@ def test_readings_sent_later_are_announced(browser, tmp_path):
     try:
         page.goto(srv.url + "/")
         srv.stop()
-        type_site(page, "Bench 4")
-        page.select_option("#sample", "feed")
-        page.select_option("#unit", "mS/cm")
-        page.check("#compensated")
+        type_reading(page, "Bench 4", "feed", "mS/cm")
         for v in ("2.1", "2.4", "2.6"):
             page.fill("#value", v)
             page.click("#save")
