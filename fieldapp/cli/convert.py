@@ -21,8 +21,8 @@ def format_result(r: dict) -> str:
     """The readable form of a conversion result for a terminal."""
     from ..labels import flag_label, method_label, route_label, sample_label
     inp = r["input"]
-    lines = [f"Reading        {inp['value']:g} {inp['unit']}  ({sample_label(inp['sample'])}"
-             + (f", ratio {inp['ratio']}" if inp["ratio"] else "") + ")"]
+    lines = [f"Reading        {inp['value']:g} {inp['unit']}  - {sample_label(inp['sample'])}"
+             + (f", ratio {inp['ratio']}" if inp["ratio"] else "")]
     if r["unit_note"]:
         lines.append(f"               note: {r['unit_note']}")
     temp = ("meter compensated" if inp["compensated"]
