@@ -1,13 +1,13 @@
-"""What the blueprints share: the JSON body, the calibration age limit, dates
+"""What the blueprints share: a site by id or a 404, the JSON body, the calibration age limit, dates
 in query strings, and paged lists."""
 from __future__ import annotations
 
 import datetime as dt
 from urllib.parse import urlencode
 
-from flask import current_app, jsonify, request
+from flask import abort, current_app, jsonify, request
 
-from .. import meters
+from .. import meters, store
 from ..science import InputError
 
 
@@ -17,6 +17,17 @@ def json_body() -> dict:
     if not isinstance(data, dict):
         raise InputError("Send the reading as a JSON object.", "body")
     return data
+
+
+def site_by_id(db, site_id: int, page: bool = True):
+    """The site, or a 404: the HTML error page for a page (``page=True``), a
+    JSON ``{error, field}`` answer for the API."""
+    site = store.get_site(db, site_id)
+    if site is None:
+        if page:
+            abort(404)
+        raise store.StoreError("No such site.", "site", 404)
+    return site
 
 
 def max_age_days() -> float:

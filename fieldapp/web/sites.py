@@ -10,7 +10,7 @@ from .. import store
 from ..science import extracts, tolerance
 from ..results import CAUTIONS
 from .db import get_db
-from .helpers import json_body, page_date, paged
+from .helpers import json_body, page_date, paged, site_by_id
 from .views import site_view
 
 bp = Blueprint("sites", __name__)
@@ -53,9 +53,7 @@ def site_settings(site_id):
     """The settings form of a site (PATCH /api/sites/<id>) and the kept history
     of its settings, newest first."""
     db = get_db()
-    site = store.get_site(db, site_id)
-    if site is None:
-        abort(404)
+    site = site_by_id(db, site_id)
     history = sitecfg.history_changes(store.site_history(db, site_id))[::-1]
     return render_template("site_settings.html", site=site, history=history,
                            meta=_settings_meta(), kind_label=sitecfg.kind_label)
@@ -64,9 +62,7 @@ def site_settings(site_id):
 @bp.get("/sites/<int:site_id>")
 def site_log(site_id):
     db = get_db()
-    site = store.get_site(db, site_id)
-    if site is None:
-        abort(404)
+    site = site_by_id(db, site_id)
     sample = request.args.get("sample") or None
     date_from = page_date("from")
     date_to = page_date("to")
@@ -102,13 +98,6 @@ def site_log(site_id):
 
 # ------------------------------------------------------------------ JSON
 
-def _site_or_404(db, site_id: int):
-    row = store.get_site(db, site_id)
-    if row is None:
-        raise store.StoreError("No such site.", "site", 404)
-    return row
-
-
 @bp.get("/api/sites")
 def list_sites():
     rows, nxt = store.sites_page(get_db(), limit=store.page_limit(request.args.get("limit")),
@@ -124,7 +113,7 @@ def create_site():
 
 @bp.get("/api/sites/<int:site_id>")
 def get_site(site_id):
-    return jsonify(sitecfg.site_dict(_site_or_404(get_db(), site_id)))
+    return jsonify(sitecfg.site_dict(site_by_id(get_db(), site_id, page=False)))
 
 
 @bp.patch("/api/sites/<int:site_id>")
@@ -135,7 +124,7 @@ def update_site(site_id):
     same transaction. Later readings use the new SP, texture and crop; stored
     readings keep the numbers they were saved with."""
     db = get_db()
-    _site_or_404(db, site_id)
+    site_by_id(db, site_id, page=False)
     row, change_no = store.change_site_settings(db, site_id,
                                                 sitecfg.validate_settings(json_body()))
     return jsonify({**sitecfg.site_dict(row), "change_no": change_no})
@@ -146,5 +135,5 @@ def site_history(site_id):
     """The kept changes of a site's settings, oldest first, each with its rows
     (field, old_value, new_value) and a plain sentence."""
     db = get_db()
-    _site_or_404(db, site_id)
+    site_by_id(db, site_id, page=False)
     return jsonify(sitecfg.history_changes(store.site_history(db, site_id)))

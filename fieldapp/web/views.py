@@ -16,7 +16,7 @@ from .. import charts, interpret, meters, store
 from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
 from .db import get_db
-from .helpers import max_age_days
+from .helpers import max_age_days, site_by_id
 
 bp = Blueprint("views", __name__)
 
@@ -107,9 +107,7 @@ def meter_checks(db, readings, max_age_days: float) -> list[dict]:
 def report(site_id):
     """A printable page for one visit (``?visit=<id>``; the latest by default)."""
     db = get_db()
-    site = store.get_site(db, site_id)
-    if site is None:
-        abort(404)
+    site = site_by_id(db, site_id)
     site = dict(site)
     visits = store.visits_for_site(db, site_id)
     visit = None
@@ -209,9 +207,7 @@ def summary_json(site_id):
     """Where the site stands (interpretation of its current readings) and the
     data of its charts. ``?as_of=YYYY-MM-DD`` for the state at an earlier day."""
     db = get_db()
-    site = store.get_site(db, site_id)
-    if site is None:
-        raise store.StoreError("No such site.", "site", 404)
+    site = site_by_id(db, site_id, page=False)
     site = dict(site)
     as_of = request.args.get("as_of") or None
     if as_of:
