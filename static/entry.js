@@ -496,7 +496,11 @@
     if (correcting) { correcting = null; $("site").readOnly = false; }
     cleared(d);
   }
-  function sampleLabel(k) { return (kind(k).label || k || "").replace(/\s*\(.*\)$/, "").toLowerCase(); }
+  function sampleLabel(k) {
+    // "Soil:water extract 1:N (by mass)" -> "soil:water extract 1:N": only the first letter lowered
+    var s = (kind(k).label || k || "").replace(/\s*\(.*\)$/, "");
+    return s.charAt(0).toLowerCase() + s.slice(1);
+  }
 
   function cleared(d) {
     formUuid = null; touched = {};
