@@ -82,3 +82,41 @@ def test_idle_connections_time_out(lan_server):
     finally:
         for s in socks:
             s.close()
+
+
+class _Task:
+    """The two things waitress's dispatcher asks of a task: its request's
+    method and ``service()``."""
+
+    def __init__(self, method: str, log: list, gate=None):
+        import types
+        self.request = types.SimpleNamespace(command=method)
+        self.log, self.gate, self.method = log, gate, method
+
+    def service(self):
+        if self.gate is not None:
+            self.gate.wait(5)
+        self.log.append(self.method)
+
+
+def test_a_write_runs_while_every_read_thread_is_held():
+    """Three threads, one kept for writes: two reads that hang hold the read
+    slots, more reads wait, and a POST added last still runs at once."""
+    import threading
+    gate, log = threading.Event(), []
+    d = connections.writes_first_dispatcher(3, reserve=1)
+    try:
+        for _ in range(4):
+            d.add_task(_Task("GET", log, gate))
+        d.add_task(_Task("POST", log))
+        deadline = time.monotonic() + 5
+        while "POST" not in log and time.monotonic() < deadline:
+            time.sleep(0.01)
+        assert log == ["POST"], log          # no read finished, the write did
+        gate.set()
+        while len(log) < 5 and time.monotonic() < deadline + 5:
+            time.sleep(0.01)
+        assert sorted(log) == ["GET"] * 4 + ["POST"]
+    finally:
+        gate.set()
+        d.shutdown(timeout=2)

@@ -18,6 +18,10 @@ Only the two addresses a local browser uses count as the laptop: another
 """
 from __future__ import annotations
 
+from collections import deque
+
+from waitress.task import ThreadedTaskDispatcher
+
 PER_ADDRESS = 16          # a browser opens about 6 per host; a service worker a few more
 OTHERS_TOTAL = 128        # a crew's tablets, with room to spare
 LAPTOP_RESERVE = 100      # slots above OTHERS_TOTAL that only the laptop can use
@@ -91,6 +95,67 @@ def _is_write(task) -> bool:
     return getattr(req, "command", None) in WRITE_METHODS
 
 
+class _WritesFirst(ThreadedTaskDispatcher):
+    """waitress's dispatcher with a second queue: writes go before every
+    waiting read, and reads hold at most ``read_slots`` threads at once."""
+
+    def __init__(self, read_slots: int):
+        super().__init__()
+        self.read_slots = read_slots
+        self.writes = deque()
+        self.reads_busy = 0
+
+    def _ready(self) -> bool:
+        return bool(self.writes) or (bool(self.queue) and self.reads_busy < self.read_slots)
+
+    def _next_task(self, thread_no):
+        """Wait (holding ``self.lock``) for a task this thread may run; None
+        when the thread is told to stop. Returns (task, is_read)."""
+        while not self._ready() and self.stop_count == 0:
+            self.active_count -= 1
+            self.queue_cv.wait()
+            self.active_count += 1
+        if self.stop_count > 0:
+            self.active_count -= 1
+            self.stop_count -= 1
+            self.threads.discard(thread_no)
+            self.thread_exit_cv.notify()
+            return None, False
+        is_read = not self.writes
+        task = self.queue.popleft() if is_read else self.writes.popleft()
+        if is_read:
+            self.reads_busy += 1
+        return task, is_read
+
+    def handler_thread(self, thread_no):
+        while True:
+            with self.lock:
+                task, is_read = self._next_task(thread_no)
+            if task is None:
+                break
+            try:
+                task.service()
+            except BaseException:
+                self.logger.exception("Exception when servicing %r", task)
+            finally:
+                if is_read:
+                    with self.lock:
+                        self.reads_busy -= 1
+                        if self.queue:
+                            self.queue_cv.notify()
+
+    def add_task(self, task):
+        with self.lock:
+            (self.writes if _is_write(task) else self.queue).append(task)
+            self.queue_cv.notify()
+
+    def shutdown(self, cancel_pending=True, timeout=5):
+        with self.lock:
+            self.queue.extendleft(reversed(self.writes))
+            self.writes.clear()
+        return super().shutdown(cancel_pending, timeout)
+
+
 def writes_first_dispatcher(threads: int, reserve: int = WRITE_RESERVE):
     """A waitress task dispatcher where writes never queue behind reads.
 
@@ -101,63 +166,7 @@ def writes_first_dispatcher(threads: int, reserve: int = WRITE_RESERVE):
     reserve`` threads at once, so ``reserve`` threads are always free for
     writes. SQLite's write-ahead log already lets a write commit while reads
     are open; this keeps the threads free too."""
-    import threading
-    from collections import deque
-
-    from waitress.task import ThreadedTaskDispatcher
-
     reserve = max(1, min(reserve, threads - 1))
-
-    class WritesFirst(ThreadedTaskDispatcher):
-        read_slots = threads - reserve
-
-        def __init__(self):
-            super().__init__()
-            self.writes = deque()
-            self.reads_busy = 0
-
-        def _ready(self) -> bool:
-            return bool(self.writes) or (bool(self.queue) and self.reads_busy < self.read_slots)
-
-        def handler_thread(self, thread_no):
-            while True:
-                with self.lock:
-                    while not self._ready() and self.stop_count == 0:
-                        self.active_count -= 1
-                        self.queue_cv.wait()
-                        self.active_count += 1
-                    if self.stop_count > 0:
-                        self.active_count -= 1
-                        self.stop_count -= 1
-                        self.threads.discard(thread_no)
-                        self.thread_exit_cv.notify()
-                        break
-                    is_read = not self.writes
-                    task = self.queue.popleft() if is_read else self.writes.popleft()
-                    if is_read:
-                        self.reads_busy += 1
-                try:
-                    task.service()
-                except BaseException:
-                    self.logger.exception("Exception when servicing %r", task)
-                finally:
-                    if is_read:
-                        with self.lock:
-                            self.reads_busy -= 1
-                            if self.queue:
-                                self.queue_cv.notify()
-
-        def add_task(self, task):
-            with self.lock:
-                (self.writes if _is_write(task) else self.queue).append(task)
-                self.queue_cv.notify()
-
-        def shutdown(self, cancel_pending=True, timeout=5):
-            with self.lock:
-                self.queue.extendleft(reversed(self.writes))
-                self.writes.clear()
-            return super().shutdown(cancel_pending, timeout)
-
-    d = WritesFirst()
+    d = _WritesFirst(read_slots=threads - reserve)
     d.set_thread_count(threads)
     return d
