@@ -119,15 +119,7 @@ def _num(body, key, what, required=False):
     return v
 
 
-def validate_meter(body: dict) -> dict:
-    """A meter profile from a form or JSON body; raises InputError naming the field."""
-    if not isinstance(body, dict):
-        raise InputError("Send the meter as a JSON object.", "body")
-    name = " ".join(str(body.get("name") or "").split())
-    if not name:
-        raise InputError("Give the meter a name, e.g. 'pocket tester 1'.", "name")
-    if len(name) > 120:
-        raise InputError("Meter names are at most 120 characters.", "name")
+def _meter_units(body: dict) -> list[str]:
     unit_list = body.get("units") or []
     if isinstance(unit_list, str):
         unit_list = [u for u in unit_list.replace(",", ";").split(";") if u.strip()]
@@ -135,37 +127,28 @@ def validate_meter(body: dict) -> dict:
             not all(isinstance(u, str) for u in unit_list):
         raise InputError("units is a list of the units the meter displays, e.g. "
                          '["dS/m", "µS/cm"].', "units")
-    canon = []
-    for u in unit_list:
-        canon.append(units.parse_unit(u).canonical)
-    range_list = body.get("ranges") or []
-    if not isinstance(range_list, list) or len(range_list) > 20:
-        raise InputError("ranges is a list of at most 20 ranges, each with min, max, "
-                         "resolution and unit.", "ranges")
-    ranges = []
-    for k, r in enumerate(range_list):
-        if not isinstance(r, dict):
-            raise InputError("Each range needs min, max, resolution and unit.", "ranges")
-        lo = _num(r, "min", "the range minimum", True)
-        hi = _num(r, "max", "the range maximum", True)
-        res = _num(r, "resolution", "the display step")
-        unit = r.get("unit") or (canon[0] if canon else "")
-        if not isinstance(unit, str):
-            raise InputError(f"Range {k + 1}: the unit must be text, e.g. dS/m.", "ranges")
-        unit = units.parse_unit(unit).canonical
-        if lo < 0 or hi <= lo:
-            raise InputError(f"Range {k + 1}: the minimum must be below the maximum.", "ranges")
-        if res is not None and not (0 < res < hi):
-            raise InputError(f"Range {k + 1}: the display step must be above 0 and below "
-                             "the maximum.", "ranges")
-        ranges.append({"min": lo, "max": hi, "resolution": res, "unit": unit})
-        if unit not in canon:
-            canon.append(unit)
-    if not canon:
-        raise InputError("Give at least one unit the meter displays.", "units")
-    acc = _num(body, "accuracy_pct", "the stated accuracy in %")
-    if acc is not None and not 0 < acc <= 50:
-        raise InputError("Accuracy is a percentage between 0 and 50.", "accuracy_pct")
+    return [units.parse_unit(u).canonical for u in unit_list]
+
+
+def _meter_range(k: int, r, default_unit: str) -> dict:
+    if not isinstance(r, dict):
+        raise InputError("Each range needs min, max, resolution and unit.", "ranges")
+    lo = _num(r, "min", "the range minimum", True)
+    hi = _num(r, "max", "the range maximum", True)
+    res = _num(r, "resolution", "the display step")
+    unit = r.get("unit") or default_unit
+    if not isinstance(unit, str):
+        raise InputError(f"Range {k + 1}: the unit must be text, e.g. dS/m.", "ranges")
+    unit = units.parse_unit(unit).canonical
+    if lo < 0 or hi <= lo:
+        raise InputError(f"Range {k + 1}: the minimum must be below the maximum.", "ranges")
+    if res is not None and not (0 < res < hi):
+        raise InputError(f"Range {k + 1}: the display step must be above 0 and below "
+                         "the maximum.", "ranges")
+    return {"min": lo, "max": hi, "resolution": res, "unit": unit}
+
+
+def _meter_compensation(body: dict) -> dict:
     atc = bool(body.get("atc"))
     coeff = _num(body, "atc_coeff_pct", "the compensation coefficient in %/°C")
     if coeff is not None and not 0.5 <= coeff <= 4:
@@ -178,8 +161,36 @@ def validate_meter(body: dict) -> dict:
     ref = _num(body, "ref_temp_c", "the reference temperature") or 25.0
     if ref not in (20.0, 25.0):
         raise InputError("The reference temperature is 20 or 25 °C.", "ref_temp_c")
-    return {"name": name, "units": canon, "ranges": ranges, "accuracy_pct": acc, "atc": atc,
-            "atc_coeff_pct": coeff, "ref_temp_c": ref, "atc_min_c": tmin, "atc_max_c": tmax,
+    return {"atc": atc, "atc_coeff_pct": coeff, "ref_temp_c": ref, "atc_min_c": tmin,
+            "atc_max_c": tmax}
+
+
+def validate_meter(body: dict) -> dict:
+    """A meter profile from a form or JSON body; raises InputError naming the field."""
+    if not isinstance(body, dict):
+        raise InputError("Send the meter as a JSON object.", "body")
+    name = " ".join(str(body.get("name") or "").split())
+    if not name:
+        raise InputError("Give the meter a name, e.g. 'pocket tester 1'.", "name")
+    if len(name) > 120:
+        raise InputError("Meter names are at most 120 characters.", "name")
+    canon = _meter_units(body)
+    range_list = body.get("ranges") or []
+    if not isinstance(range_list, list) or len(range_list) > 20:
+        raise InputError("ranges is a list of at most 20 ranges, each with min, max, "
+                         "resolution and unit.", "ranges")
+    ranges = []
+    for k, r in enumerate(range_list):
+        ranges.append(_meter_range(k, r, canon[0] if canon else ""))
+        if ranges[-1]["unit"] not in canon:
+            canon.append(ranges[-1]["unit"])
+    if not canon:
+        raise InputError("Give at least one unit the meter displays.", "units")
+    acc = _num(body, "accuracy_pct", "the stated accuracy in %")
+    if acc is not None and not 0 < acc <= 50:
+        raise InputError("Accuracy is a percentage between 0 and 50.", "accuracy_pct")
+    return {"name": name, "units": canon, "ranges": ranges, "accuracy_pct": acc,
+            **_meter_compensation(body),
             "tds_factor": _tds_factor(body), "notes": str(body.get("notes") or "")[:2000]}
 
 
