@@ -359,3 +359,30 @@ def test_widely_grown_crops_verified_or_say_why_not():
         assert "unverified" in c.source, name
     for name in ("sugarcane", "grape", "sudangrass", "lovegrass"):
         assert "no second" in tol.CROPS[name].note, name
+
+
+def test_peanut_threshold_against_field_study_abstract():
+    # "Peanut Response to Uniform and Non-uniform Soil Salinity", Agronomy
+    # Journal, abstract read at scilit.com/publications/ef92469d7eb31815ba6c168cd71be0c1:
+    # yield -20 % at ECe 3.8 and -50 % at ECe 4.7 mmhos/cm. The two-piece line
+    # through those points has slope 30 / 0.9 = 33.3 %/dS/m and meets 100 % at
+    # 3.8 - 20 / 33.3 = 3.2 dS/m: the stored threshold agrees; the stored slope
+    # (29, compilation not read) does not, and the row says so.
+    slope = (80 - 50) / (4.7 - 3.8)
+    threshold = 3.8 - 20 / slope
+    c = tol.CROPS["peanut"]
+    assert c.threshold_dS_m == pytest.approx(threshold, abs=0.05)
+    assert abs(c.slope_pct_per_dS_m - slope) > 2          # the disagreement is real
+    assert not c.verified and "unverified" in c.source
+    assert "33" in c.note and "3.8" in c.note and "4.7" in c.note
+
+
+def test_plum_keeps_compilation_and_names_the_field_study():
+    # "Yield and foliar injury responses of mature plum trees to salinity",
+    # abstract read at discovery.researcher.life (b50229e0c9f43fc19ec8c2abc0b28ceb):
+    # threshold 2.6 dS/m, 31 %/dS/m. The compilation row is kept (not read, so
+    # unverified) and the study's values are in its note.
+    c = tol.CROPS["plum"]
+    assert (c.threshold_dS_m, c.slope_pct_per_dS_m) != (2.6, 31.0)
+    assert not c.verified
+    assert "2.6 dS/m" in c.note and "31 %/dS/m" in c.note
