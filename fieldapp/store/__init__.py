@@ -1,0 +1,37 @@
+"""The log's storage: schema, migrations, queries. The only package that speaks SQL.
+
+The database is one file in WAL mode with foreign keys on and
+``synchronous=FULL``, so a save that was acknowledged survives a crash or a
+dead battery. Every write runs in an explicit transaction. Readings are
+append-only (triggers refuse UPDATE and DELETE); a correction is a new row
+pointing at the one it replaces, a void is a row in ``voids``.
+"""
+
+# One interface for the rest of the program: every caller says ``store.name``;
+# the modules below hold one concern each.
+from .core import (COMPUTED_FIELDS, DB_NAME, INPUT_FIELDS, SITE_NAME_MAX, StoreError,
+                   VIEW_COLUMNS, connect, migrate, readings_insert_sql, transaction,
+                   utc_now, _migrations, _split_sql, _view_values_sql)  # noqa: F401
+from .sites import (SITE_EDITABLE, SITE_SETTINGS, change_site_settings, clean_site_name,
+                    ensure_site, get_site, list_sites, open_flag_counts,
+                    site_by_former_name, site_history, update_site)  # noqa: F401
+from .readings import (HISTORY_WINDOW, ack_flag, acked_reading_ids, acks_for_readings,
+                       existing_uuids, get_reading, history_values, insert_ack,
+                       insert_reading, insert_readings_bulk, insert_void, iter_readings,
+                       list_readings, reading_dict, readings_brief, replicate_values,
+                       stored_salt_type, void_reading, _READING_SELECT)  # noqa: F401
+from .meters import (get_meter, insert_calibration, insert_meter, last_calibration,
+                     list_calibrations, list_meters)  # noqa: F401
+from .views import (delete_target, get_visit, list_targets, readings_for_visit,
+                    save_target, view_readings, visits_for_site)  # noqa: F401
+from .pairing import (active_pairing_codes, add_pairing_failure, device_by_token,
+                      device_reading_counts, devices_paired_with, insert_device,
+                      insert_pairing_code, list_devices, note_reading_device,
+                      pairing_failure_counts, revoke_devices, revoke_pairing_codes,
+                      touch_device)  # noqa: F401
+from .rescue import (SQLITE_HEADER, connect_readonly, inspect_log, integrity_problems,
+                     log_summary, unwritable_reason, _restore_hint)  # noqa: F401
+from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cursor,
+                     iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
+from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
+                      stage_import_rows)  # noqa: F401

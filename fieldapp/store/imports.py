@@ -1,0 +1,114 @@
+"""An import in chunks (schema 012; csvio.import_rows)."""
+from __future__ import annotations
+
+import datetime as dt
+import sqlite3
+
+from .core import (COMPUTED_FIELDS, INPUT_FIELDS, VIEW_COLUMNS, StoreError,
+                   _view_values_sql, utc_now)
+from .readings import _visit_id
+from .sites import ensure_site
+
+
+_STAGED = ("uuid",) + INPUT_FIELDS + COMPUTED_FIELDS + ("result_json", "app_version",
+                                                       "recorded_at")
+
+
+def import_job(conn, digest: str, rows_total: int) -> dict:
+    """The job staging these rows (by digest), resumed if a killed run left
+    it, else new; jobs of other files left for a day are dropped."""
+    row = conn.execute("SELECT * FROM import_jobs WHERE digest = ?", (digest,)).fetchone()
+    if row is not None and row["rows_total"] == rows_total:
+        return dict(row)
+    if row is not None:
+        drop_import_job(conn, row["id"])
+    day_ago = (dt.datetime.now(dt.timezone.utc) - dt.timedelta(days=1)).isoformat()
+    for (old,) in conn.execute("SELECT id FROM import_jobs WHERE started_at < ?",
+                               (day_ago,)).fetchall():
+        drop_import_job(conn, old)
+    cur = conn.execute("INSERT INTO import_jobs (digest, rows_total, started_at) VALUES "
+                       "(?,?,?)", (digest, rows_total, utc_now()))
+    return dict(conn.execute("SELECT * FROM import_jobs WHERE id = ?",
+                             (cur.lastrowid,)).fetchone())
+
+
+def stage_import_rows(conn, job_id: int, first_seq: int, rows) -> None:
+    """Stage converted records ``[(depth, rec), ...]`` of a job (the caller
+    holds a short transaction); the job remembers how far it got."""
+    cols = ("job_id", "seq", "depth", "site", "visited_by", "supersedes_uuid") + _STAGED
+    vals = []
+    for i, (depth, rec) in enumerate(rows):
+        v = [job_id, first_seq + i, depth, rec["site"], rec.get("visited_by") or "",
+             rec.get("supersedes_uuid")] + [rec.get(c) for c in _STAGED]
+        v[cols.index("compensated")] = 1 if rec.get("compensated") else 0
+        v[cols.index("note")] = rec.get("note") or ""
+        v[cols.index("flags")] = rec.get("flags") or ""
+        vals.append(v)
+    conn.executemany(f"INSERT OR REPLACE INTO import_staging ({', '.join(cols)}) VALUES "
+                     f"({', '.join('?' * len(cols))})", vals)
+    conn.execute("UPDATE import_jobs SET rows_staged = ? WHERE id = ?",
+                 (first_seq + len(vals), job_id))
+
+
+def drop_import_job(conn, job_id: int) -> None:
+    conn.execute("DELETE FROM import_staging WHERE job_id = ?", (job_id,))
+    conn.execute("DELETE FROM import_jobs WHERE id = ?", (job_id,))
+
+
+def import_clashes(conn, job_id: int) -> str | None:
+    """What a save made meanwhile contradicts in a staged job, or None: a
+    staged uuid now in the log, or a staged correction of a reading that
+    was corrected or voided since the file was checked."""
+    row = conn.execute("SELECT st.uuid FROM import_staging st JOIN readings r "
+                       "ON r.uuid = st.uuid WHERE st.job_id = ? LIMIT 1", (job_id,)).fetchone()
+    if row:
+        return f"reading {row[0]} was saved meanwhile"
+    row = conn.execute(
+        "SELECT st.supersedes_uuid FROM import_staging st JOIN readings p "
+        "ON p.uuid = st.supersedes_uuid JOIN reading_status s ON s.id = p.id "
+        "WHERE st.job_id = ? AND s.status <> 'current' LIMIT 1", (job_id,)).fetchone()
+    return f"reading {row[0]} was corrected or voided meanwhile" if row else None
+
+
+def finish_import_job(conn, job_id: int) -> int:
+    """Move a job's staged rows into readings inside the caller's (short)
+    transaction: sites and visits as needed, one INSERT ... SELECT per level
+    of corrections (a correction's target is in by then). Returns how many."""
+    conn.execute("CREATE TEMP TABLE IF NOT EXISTS import_map (site TEXT, day TEXT, "
+                 "visited_by TEXT, site_id INTEGER, visit_id INTEGER, "
+                 "PRIMARY KEY (site, day, visited_by))")
+    conn.execute("DELETE FROM temp.import_map")
+    site_ids: dict[str, int] = {}
+    keys = conn.execute("SELECT DISTINCT site, substr(taken_at, 1, 10), visited_by "
+                        "FROM import_staging WHERE job_id = ?", (job_id,)).fetchall()
+    for site, day, by in keys:
+        k = site.lower()
+        if k not in site_ids:
+            site_ids[k] = ensure_site(conn, site)["id"]
+        conn.execute("INSERT INTO temp.import_map VALUES (?,?,?,?,?)",
+                     (site, day, by, site_ids[k],
+                      _visit_id(conn, site_ids[k], day, by)))
+    cols = ", ".join(_STAGED)
+    picked = ", ".join(f"st.{c}" if c != "recorded_at" else "COALESCE(st.recorded_at, ?)"
+                       for c in _STAGED)
+    top = conn.execute("SELECT MAX(depth) FROM import_staging WHERE job_id = ?",
+                       (job_id,)).fetchone()[0]
+    added = 0
+    try:
+        for d in range(0 if top is None else top + 1):
+            cur = conn.execute(
+                f"INSERT INTO readings ({cols}, site_id, visit_id, supersedes_id, "
+                f"{', '.join(VIEW_COLUMNS)}) "
+                f"SELECT {picked}, m.site_id, m.visit_id, "
+                "(SELECT p.id FROM readings p WHERE p.uuid = st.supersedes_uuid), "
+                f"{_view_values_sql('st.result_json')} "
+                "FROM import_staging st JOIN temp.import_map m ON m.site = st.site "
+                "AND m.day = substr(st.taken_at, 1, 10) AND m.visited_by = st.visited_by "
+                "WHERE st.job_id = ? AND st.depth = ? ORDER BY st.seq",
+                (utc_now(), job_id, d))
+            added += cur.rowcount
+    except sqlite3.IntegrityError as e:
+        raise StoreError(f"The file corrects one reading twice or repeats a reading ({e}).",
+                         "file", 400) from None
+    drop_import_job(conn, job_id)
+    return added
