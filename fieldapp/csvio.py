@@ -29,10 +29,14 @@ from .science import InputError
 BOM = "\ufeff"
 
 COLUMNS = ("site", "taken_at", "sample", "depth_cm", "value", "unit", "temp_c", "compensated",
-           "ratio", "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa", "meter",
-           "replicate_group", "note", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
+           "ratio", "sp_pct", "texture", "salt_type", "tds_factor", "theta_g_pct", "matric_MPa",
+           "meter", "replicate_group", "note", "ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa",
            "psi_s_method", "flags", "status", "void_reason", "voided_at", "supersedes_uuid",
            "uuid", "visited_by", "recorded_at", "app_version", "flag_acks")
+SALT_POS = COLUMNS.index("salt_type")
+#: Machine columns an export made before they existed lacks; such a file
+#: still imports, the column read as empty (salt_type: schema 016).
+OPTIONAL_COLUMNS = frozenset(("salt_type",))
 #: Columns for a person reading the file in a spreadsheet, after the machine
 #: columns above (which import reads back; these it ignores): the ratio as a
 #: number and as text no spreadsheet reads as a time, the local date-time a
@@ -174,6 +178,8 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
             idx = [keys.index(c) for c in COLUMNS[:-1]]
             id_pos = keys.index("id")
         cells = [f(row[i]) for f, i in zip(formatters, idx)]
+        if not cells[SALT_POS]:             # stored before schema 016: in its result JSON
+            cells[SALT_POS] = store.stored_salt_type(row) or ""
         rid = row[id_pos]
         cells.append(neutralize(_acks_cell(_acks_or_none(conn, rid))) if rid in acked else "")
         cells.extend(readable(row))
@@ -348,12 +354,12 @@ def read_export(src: IO[str]) -> list[dict]:
     except csv.Error as e:
         raise ImportError_(f"This is not a CSV file ({e}).", "file") from None
     header, reader = _after_spreadsheet(header, reader)
-    missing = [c for c in COLUMNS if c not in header]
+    missing = [c for c in COLUMNS if c not in header and c not in OPTIONAL_COLUMNS]
     if missing:
         raise ImportError_("This is not a fieldapp log export: missing columns "
                            + ", ".join(missing[:6]) + (" …" if len(missing) > 6 else "")
                            + ". Nothing was imported.", "file")
-    idx = {c: header.index(c) for c in COLUMNS}
+    idx = {c: header.index(c) for c in COLUMNS if c in header}
     rows = []
     try:
         for line, cells in enumerate(reader, start=2):
@@ -364,6 +370,9 @@ def read_export(src: IO[str]) -> list[dict]:
                                    f"{len(header)}. Nothing was imported.", "file")
             r = {}
             for c in COLUMNS:
+                if c not in idx:                # an optional column the file lacks
+                    r[c] = ""
+                    continue
                 cell = cells[idx[c]]
                 r[c] = _num(cell, line, c) if c in NUMERIC else unneutralize(cell)
             if r["value"] is None or not r["unit"] or not r["uuid"] or not r["site"]:
@@ -409,7 +418,7 @@ def _payload(r: dict) -> dict:
     return {"uuid": r["uuid"], "site": r["site"], "sample": r["sample"],
             "value": r["value"], "unit": r["unit"], "temp_c": r["temp_c"],
             "compensated": r["compensated"] == "yes", "ratio": r["ratio"],
-            "sp": r["sp_pct"], "texture": r["texture"],
+            "sp": r["sp_pct"], "texture": r["texture"], "salt_type": r["salt_type"] or None,
             "tds_factor": r["tds_factor"], "theta_g_pct": r["theta_g_pct"],
             "matric_MPa": r["matric_MPa"], "depth_cm": r["depth_cm"],
             "meter": r["meter"], "replicate_group": r["replicate_group"],

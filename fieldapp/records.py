@@ -247,6 +247,7 @@ def build_record(payload: dict, site=None, conn=None,
         "ratio": inp["ratio"],
         "sp_pct": inp["sp"],
         "texture": inp["texture"],
+        "salt_type": inp.get("salt_type"),
         "tds_factor": inp["tds_factor"],
         "theta_g_pct": inp["theta_g_pct"],
         "matric_MPa": inp["matric_MPa"],
@@ -319,6 +320,7 @@ def correct_reading(conn, uuid: str, changes: dict,
     payload = {k: old[k] for k in CORRECTION_CARRIED}
     payload["compensated"] = bool(old["compensated"])
     payload["sp"] = old["sp_pct"]
+    payload["salt_type"] = store.stored_salt_type(old)
     payload.update(changes)
     payload["site"] = old["site"]
     payload["supersedes"] = uuid

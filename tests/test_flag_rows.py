@@ -120,6 +120,8 @@ OLD_OPEN_FLAG_COUNTS = """
 def _plain_insert(conn, rec, site_id, visit_id, supersedes_id=None):
     cols = ("uuid", "site_id", "visit_id", "supersedes_id") + store.INPUT_FIELDS \
         + store.COMPUTED_FIELDS + ("result_json", "app_version", "recorded_at")
+    have = {r[1] for r in conn.execute("PRAGMA table_info(readings)")}
+    cols = tuple(c for c in cols if c in have)      # an older schema lacks newer columns
     vals = {**rec, "site_id": site_id, "visit_id": visit_id, "supersedes_id": supersedes_id,
             "compensated": 1 if rec.get("compensated") else 0, "note": rec.get("note") or "",
             "recorded_at": "2026-05-14T07:00:00+00:00"}

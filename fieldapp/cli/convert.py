@@ -25,6 +25,8 @@ def format_result(r: dict) -> str:
              + (f", ratio {inp['ratio']}" if inp["ratio"] else "")]
     if r["unit_note"]:
         lines.append(f"               note: {r['unit_note']}")
+    if inp.get("salt_type") == "sea_salt":
+        lines.append("Water type     like diluted seawater (seawater route beside the NaCl one)")
     temp = ("meter compensated" if inp["compensated"]
             else f"sample at {inp['temp_c']:g} °C" if inp["temp_c"] is not None
             else "no temperature given")

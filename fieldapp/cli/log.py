@@ -170,7 +170,7 @@ def readings():
 
 
 READING_COLUMNS = ["uuid", "site", "taken_at", "sample", "depth_cm", "value", "unit",
-                   "temp_c", "compensated", "ratio", "ec25_dS_m", "ece_dS_m", "ece_method",
+                   "temp_c", "compensated", "ratio", "salt_type", "ec25_dS_m", "ece_dS_m", "ece_method",
                    "psi_s_MPa", "psi_s_method", "status", "void_reason", "supersedes_uuid",
                    "meter", "visited_by", "flags", "note"]
 
@@ -212,7 +212,8 @@ def readings_list(site, date_from, date_to, kind, data, fmt):
     emit(rows, fmt, lambda rs: table(rs, [
         ("uuid", "uuid"), ("site", "site"), ("taken_at", "taken"), ("sample", "kind"),
         ("depth_cm", "cm"), ("value", "value"), ("unit", "unit"), ("ec25_dS_m", "EC25"),
-        ("ece_dS_m", "ECe"), ("status", "status"), ("flags", "flags")]), READING_COLUMNS)
+        ("ece_dS_m", "ECe"), ("salt_type", "water"), ("status", "status"),
+        ("flags", "flags")]), READING_COLUMNS)
     return 0
 
 

@@ -19,7 +19,7 @@ from .readings import (HISTORY_WINDOW, ack_flag, acked_reading_ids, acks_for_rea
                        existing_uuids, get_reading, history_values, insert_ack,
                        insert_reading, insert_readings_bulk, insert_void, iter_readings,
                        list_readings, reading_dict, readings_brief, replicate_values,
-                       void_reading, _READING_SELECT)  # noqa: F401
+                       stored_salt_type, void_reading, _READING_SELECT)  # noqa: F401
 from .meters import (get_meter, insert_calibration, insert_meter, last_calibration,
                      list_calibrations, list_meters)  # noqa: F401
 from .views import (delete_target, get_visit, list_targets, readings_for_visit,

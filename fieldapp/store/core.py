@@ -11,8 +11,8 @@ SITE_NAME_MAX = 120
 
 #: Columns of a stored reading that come from the person (as entered).
 INPUT_FIELDS = ("sample", "depth_cm", "value", "unit", "temp_c", "compensated", "ratio",
-                "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa", "meter",
-                "replicate_group", "note", "taken_at")
+                "sp_pct", "texture", "salt_type", "tds_factor", "theta_g_pct", "matric_MPa",
+                "meter", "replicate_group", "note", "taken_at")
 #: Columns computed by science.convert, stored beside the input.
 COMPUTED_FIELDS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method", "flags")
 #: Values the site views read, kept as columns (schema 015) beside the result

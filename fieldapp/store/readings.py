@@ -272,9 +272,26 @@ def iter_readings(conn, site_id=None, sample=None, date_from=None, date_to=None,
 _NOT_IN_RECORD = frozenset(("result_json", "visit_id", "supersedes_id", *VIEW_COLUMNS))
 
 
+#: How a reading stored before schema 016 carries its water type: only inside
+#: its result JSON (written compact by records.build_record).
+_SEA_SALT_IN_JSON = '"salt_type":"sea_salt"'
+
+
+def stored_salt_type(row) -> str | None:
+    """The water type of a stored reading: its ``salt_type`` column (schema
+    016), or for a reading stored before that version the one kept in its
+    result JSON. None: mixed salts or not said."""
+    value = row["salt_type"]
+    if value:
+        return value
+    rj = row["result_json"] if "result_json" in row.keys() else None
+    return "sea_salt" if rj and _SEA_SALT_IN_JSON in rj else None
+
+
 def reading_dict(row: sqlite3.Row) -> dict:
     """A stored reading as JSON-ready dict (the API's record)."""
     d = {k: row[k] for k in row.keys() if k not in _NOT_IN_RECORD}
+    d["salt_type"] = stored_salt_type(row)
     d["compensated"] = bool(d["compensated"])
     d["flags"] = [c for c in (row["flags"] or "").split(";") if c]
     d["result"] = json.loads(row["result_json"])
