@@ -27,8 +27,10 @@ from .targets import (TARGET_MAX_dS_m, TARGET_MEASURES, TARGET_NOTE_MAX, compare
                       targets_for_crop, validate_target)  # noqa: F401
 from .soil import FALLBACK_UNCERTAINTY_PCT, soil_state  # noqa: F401
 from .solutions import (LEACHATE_FEED_BANDS, LEACHATE_FEED_SOURCE, SUBSTRATE_LEVELS,
-                        SUBSTRATE_LEVELS_SOURCE, feed_leachate, leachate_feed_band,
+                        SUBSTRATE_LEVELS_SOURCE, FEED_LEACHATE_VISITS, feed_leachate,
+                        feed_leachate_days, leachate_feed_band,
                         substrate_tests, water_state)  # noqa: F401
-from .summary import headline, needs_crop, site_summary  # noqa: F401
+from .summary import headline, needs_crop, site_summary, summary_from_rows  # noqa: F401
 from .trends import (MAX_POINTS_PER_SERIES, YIELD_LINE_DASHES, chart_specs, crop_lines,
-                     profile_spec, soil_bands, thin_points, water_bands)  # noqa: F401
+                     day_buckets, profile_spec, soil_bands, specs_from_series, thin_points,
+                     water_bands)  # noqa: F401

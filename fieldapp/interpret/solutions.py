@@ -56,9 +56,11 @@ SUBSTRATE_LEVELS_SOURCE = "meaning of each level: common practice"
 # water
 # --------------------------------------------------------------------------
 
-def water_state(cur: list[Mapping], crop, target: Mapping | None = None) -> dict | None:
+def water_state(cur: list[Mapping], crop, target: Mapping | None = None,
+                n: int | None = None) -> dict | None:
     """Latest irrigation water: hazard class (FAO 29 Table 1) and the leaching
-    requirement for the site's crop (FAO 29 eq. 7)."""
+    requirement for the site's crop (FAO 29 eq. 7). ``cur`` may hold only the
+    latest water readings, ``n`` then says how many the site has."""
     ws = [r for r in cur if r.get("sample") == "water" and _ec25(r) is not None]
     if not ws:
         return None
@@ -73,7 +75,7 @@ def water_state(cur: list[Mapping], crop, target: Mapping | None = None) -> dict
         "flags": [f["code"] for f in _flags(r)],
         "leaching": None, "previous": None,
         "target": compare_to_target(ec, target),
-        "n": len(ws),
+        "n": len(ws) if n is None else n,
     }
     if crop is not None:
         lr = {}
@@ -112,34 +114,52 @@ def leachate_feed_band(ratio: float | None) -> dict | None:
     return None
 
 
+#: The feed/leachate visits listed (newest first; ``visits_total`` counts all).
+FEED_LEACHATE_VISITS = 50
+
+
 def feed_leachate(cur: list[Mapping], targets: Mapping[str, Mapping] | None = None) -> dict | None:
     """Feed and leachate EC on the same visit, their ratio and its band.
 
     Several readings of a kind on one visit are averaged. Visits with only
-    one of the two are listed without a ratio.
+    one of the two are listed without a ratio (the latest
+    :data:`FEED_LEACHATE_VISITS`).
     """
-    targets = targets or {}
     rows = [r for r in cur if r.get("sample") in ("feed", "leachate") and _ec25(r) is not None]
-    if not rows:
-        return None
     by_day: dict[str, dict[str, list]] = defaultdict(lambda: {"feed": [], "leachate": []})
     for r in rows:
         by_day[_day(r)][r["sample"]].append(r)
-    visits = []
+    days = []
     for day in sorted(by_day, reverse=True):
-        f = _mean(_ec25(r) for r in by_day[day]["feed"])
-        lch = _mean(_ec25(r) for r in by_day[day]["leachate"])
+        fs, ls = by_day[day]["feed"], by_day[day]["leachate"]
+        days.append({"date": day, "feed": _mean(_ec25(r) for r in fs), "n_feed": len(fs),
+                     "leachate": _mean(_ec25(r) for r in ls), "n_leachate": len(ls),
+                     "keys": [r.get("uuid") for r in fs + ls]})
+    return feed_leachate_days(days, targets)
+
+
+def feed_leachate_days(days: list[Mapping], targets: Mapping[str, Mapping] | None = None
+                       ) -> dict | None:
+    """:func:`feed_leachate` from each visit's mean feed and leachate EC,
+    newest first: ``date``, ``feed``, ``n_feed``, ``leachate``,
+    ``n_leachate`` and ``keys`` (the readings' uuids; needed for the listed
+    visits only)."""
+    targets = targets or {}
+    if not days:
+        return None
+    visits = []
+    for d in days:
+        f, lch = d["feed"], d["leachate"]
         ratio = lch / f if (f is not None and lch is not None and f > 0) else None
         visits.append({
-            "date": day, "feed_dS_m": _r(f), "leachate_dS_m": _r(lch),
-            "n_feed": len(by_day[day]["feed"]), "n_leachate": len(by_day[day]["leachate"]),
-            "ratio": _r(ratio, 4), "band": leachate_feed_band(ratio),
-            "keys": [r.get("uuid") for r in by_day[day]["feed"] + by_day[day]["leachate"]],
+            "date": d["date"], "feed_dS_m": _r(f), "leachate_dS_m": _r(lch),
+            "n_feed": d["n_feed"], "n_leachate": d["n_leachate"],
+            "ratio": _r(ratio, 4), "band": leachate_feed_band(ratio), "keys": d.get("keys"),
         })
     paired = [v for v in visits if v["ratio"] is not None]
     latest = paired[0] if paired else None
     out = {
-        "visits": visits, "latest": latest,
+        "visits": visits[:FEED_LEACHATE_VISITS], "visits_total": len(visits), "latest": latest,
         "bands": [{"key": k, "lo": lo, "hi": None if math.isinf(hi) else hi, "label": lab,
                    "meaning": m} for k, lo, hi, lab, m in LEACHATE_FEED_BANDS],
         "source": LEACHATE_FEED_SOURCE, "trend": None,

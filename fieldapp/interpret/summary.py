@@ -7,7 +7,7 @@ from typing import Iterable, Mapping
 from .common import (CAUTIONS, _day, crop_dict, current_readings, short_number,
                      site_crop)
 from .soil import soil_state
-from .solutions import feed_leachate, substrate_tests, water_state
+from .solutions import feed_leachate, feed_leachate_days, substrate_tests, water_state
 from .targets import targets_for_crop
 
 def site_summary(site: Mapping, readings: Iterable[Mapping], targets: Iterable[Mapping] = (),
@@ -17,25 +17,40 @@ def site_summary(site: Mapping, readings: Iterable[Mapping], targets: Iterable[M
     ``as_of`` (YYYY-MM-DD) limits the interpretation to readings up to that
     day (the visit report shows the state as it was at that visit).
     """
-    site = dict(site)
     readings = list(readings)
     cur = current_readings(readings, as_of)
+    return summary_from_rows(site, {
+        "n_readings": len(readings), "n_current": len(cur),
+        "last_date": _day(cur[-1]) if cur else None,
+        "soil": cur, "water": cur, "substrate": cur, "greenhouse": cur}, targets, as_of)
+
+
+def summary_from_rows(site: Mapping, rows: Mapping, targets: Iterable[Mapping] = (),
+                      as_of: str | None = None) -> dict:
+    """:func:`site_summary` from the rows each part needs: ``soil``,
+    ``water``, ``substrate`` (current readings, oldest first: all of them or
+    those ``store.site_rows`` picked), ``greenhouse`` (readings, or
+    ``greenhouse_days`` as :func:`feed_leachate_days` takes them), ``n_water``
+    when ``water`` holds only the latest, and the counts ``n_readings``,
+    ``n_current``, ``last_date``."""
+    site = dict(site)
     crop = site_crop(site)
     tmap = targets_for_crop(targets, crop)
-    soil = soil_state(cur, crop, tmap.get("ece"))
-    water = water_state(cur, crop, tmap.get("water"))
-    gh = feed_leachate(cur, tmap)
-    subs = substrate_tests(cur, tmap)
+    soil = soil_state(rows["soil"], crop, tmap.get("ece"))
+    water = water_state(rows["water"], crop, tmap.get("water"), n=rows.get("n_water"))
+    gh = (feed_leachate_days(rows["greenhouse_days"], tmap) if "greenhouse_days" in rows
+          else feed_leachate(rows["greenhouse"], tmap))
     out = {
         "site": {k: site.get(k) for k in ("id", "name", "kind", "crop", "latitude", "longitude",
                                           "sp_pct", "texture", "notes")},
         "as_of": as_of,
-        "n_current": len(cur),
-        "n_readings": len(readings),
-        "last_date": _day(cur[-1]) if cur else None,
+        "n_current": rows["n_current"],
+        "n_readings": rows["n_readings"],
+        "last_date": rows["last_date"],
         "crop": crop_dict(crop),
         "crop_unknown": bool(site.get("crop")) and crop is None,
-        "soil": soil, "water": water, "greenhouse": gh, "substrate": subs,
+        "soil": soil, "water": water, "greenhouse": gh,
+        "substrate": substrate_tests(rows["substrate"], tmap),
         "targets": list(tmap.values()),
         "headline": [],
         "cautions": list(CAUTIONS),

@@ -2,6 +2,7 @@
 depth and solution EC by sample, long series thinned, and the depth profile."""
 from __future__ import annotations
 
+import datetime as dt
 from collections import defaultdict
 from typing import Iterable, Mapping
 
@@ -69,14 +70,26 @@ def _label_point(p: dict) -> dict:
 MAX_POINTS_PER_SERIES = 120
 
 
+def day_buckets(days, n: int) -> dict[str, int]:
+    """Each YYYY-MM-DD day -> its bucket: the calendar time from the first day
+    to the last cut into ``n`` equal spans (bucket 0 .. n-1)."""
+    o = {d: dt.date.fromisoformat(d).toordinal() for d in days}
+    if not o:
+        return {}
+    o0, o1 = min(o.values()), max(o.values())
+    return {d: (v - o0) * n // (o1 - o0 + 1) for d, v in o.items()}
+
+
 def thin_points(points: list[dict], most: int = MAX_POINTS_PER_SERIES,
-                keep_day: str | None = None) -> list[dict]:
+                keep_day: str | None = None, force: bool = False) -> list[dict]:
     """A long series thinned for drawing, in time order, without losing what
-    matters: the time range is cut into ``most // 2`` equal-count buckets and
-    each keeps its lowest and highest point, so every extreme survives; every
-    flagged point, the first and last point and every point of ``keep_day``
-    (the visit a report is about) are kept too. Series up to ``most`` points
-    are returned whole.
+    matters: the time from its first to its last day is cut into ``most // 2``
+    equal spans of days (:func:`day_buckets`) and each keeps its first lowest
+    and first highest point, so every extreme survives; every flagged point,
+    the first and last point and every point of ``keep_day`` (the visit a
+    report is about) are kept too. Series up to ``most`` points are returned
+    whole (``force``: thinned all the same, for the candidates the database
+    picked, ``store.site_rows``).
 
     >>> pts = [{"t": f"2025-01-{1 + i % 28:02d}T{i % 24:02d}", "y": float(i % 97),
     ...         "flagged": i == 500} for i in range(2000)]
@@ -86,55 +99,72 @@ def thin_points(points: list[dict], most: int = MAX_POINTS_PER_SERIES,
     >>> any(p["flagged"] for p in out)
     True
     """
-    if len(points) <= most:
+    if not points or (len(points) <= most and not force):
         return points
     pts = sorted(points, key=lambda p: str(p["t"]))
-    n_buckets = max(1, most // 2)
-    size = -(-len(pts) // n_buckets)
-    keep = {0, len(pts) - 1}
-    for start in range(0, len(pts), size):
-        idx = range(start, min(start + size, len(pts)))
-        keep.add(min(idx, key=lambda i: pts[i]["y"]))
-        keep.add(max(idx, key=lambda i: pts[i]["y"]))
+    bucket = day_buckets({str(p["t"])[:10] for p in pts}, max(1, most // 2))
+    lo: dict[int, int] = {}
+    hi: dict[int, int] = {}
+    for i, p in enumerate(pts):
+        b = bucket[str(p["t"])[:10]]
+        if b not in lo or p["y"] < pts[lo[b]]["y"]:
+            lo[b] = i
+        if b not in hi or p["y"] > pts[hi[b]]["y"]:
+            hi[b] = i
+    keep = {0, len(pts) - 1} | set(lo.values()) | set(hi.values())
     keep.update(i for i, p in enumerate(pts) if p.get("flagged")
                 or (keep_day and str(p["t"])[:10] == keep_day))
     return [pts[i] for i in sorted(keep)]
 
 
-def _thin_series(specs: list[dict], keep_day: str | None) -> list[dict]:
-    for spec in specs:
-        for ser in spec["series"]:
-            n = len(ser["points"])
-            ser["points"] = [_label_point(p) for p in thin_points(ser["points"],
-                                                                  keep_day=keep_day)]
-            if len(ser["points"]) < n:
-                ser["thinned_from"] = n
-    return specs
-
-
 def chart_specs(site: Mapping, readings: Iterable[Mapping], targets: Iterable[Mapping] = (),
-                as_of: str | None = None, highlight: str | None = None) -> list[dict]:
-    """Trend chart data (long series thinned, every extreme and flagged point
-    kept: :func:`thin_points`); see :func:`_chart_specs`."""
-    return _thin_series(_chart_specs(site, readings, targets, as_of, highlight), highlight)
-
-
-def _chart_specs(site: Mapping, readings: Iterable[Mapping], targets: Iterable[Mapping] = (),
-                 as_of: str | None = None, highlight: str | None = None) -> list[dict]:
-    """Trend chart data for a site: one chart of soil ECe by depth (salinity
-    class bands, crop lines), one of solution EC at 25 °C by sample kind.
-    Only current readings; each becomes one point."""
+                as_of: str | None = None, highlight: str | None = None,
+                highlight_at: str | None = None) -> list[dict]:
+    """Trend chart data for a site from its readings: one chart of soil ECe
+    by depth (salinity class bands, crop lines), one of solution EC at 25 °C
+    by sample kind. Only current readings, up to ``as_of``; each becomes one
+    point, long series thinned (every extreme and flagged point kept:
+    :func:`thin_points`). ``highlight``: the day of the visit a report is
+    about (its points are kept), drawn at ``highlight_at`` (the time of the
+    visit's readings) or else at the day's start."""
     cur = current_readings(readings, as_of)
+    soil = [r for r in cur if r.get("sample") in SOIL_KINDS and _ece(r) is not None]
+    sol = [r for r in cur if r.get("sample") in SOLUTION_KINDS and _ec25(r) is not None]
+    soil_series = []
+    for d in sorted({r.get("depth_cm") for r in soil}, key=_depth_sort):
+        rs = [r for r in soil if r.get("depth_cm") == d]
+        soil_series.append((d, rs, len(rs)))
+    sol_series = []
+    for k in SOLUTION_KINDS:
+        rs = [r for r in sol if r["sample"] == k]
+        if rs:
+            sol_series.append((k, rs, len(rs)))
+    return specs_from_series(site, soil_series, sol_series, targets, highlight, highlight_at)
+
+
+def _series(name: str, rows: list[Mapping], n: int, value, keep_day: str | None) -> dict:
+    """One drawn series from its readings (all of them, or the candidates the
+    database picked from ``n``), thinned by :func:`thin_points`."""
+    pts = [_point(r, value(r), name) for r in rows]
+    pts = thin_points(pts, keep_day=keep_day, force=n > MAX_POINTS_PER_SERIES)
+    ser = {"name": name, "points": [_label_point(p) for p in pts]}
+    if len(pts) < n:
+        ser["thinned_from"] = n
+    return ser
+
+
+def specs_from_series(site: Mapping, soil_series, sol_series, targets: Iterable[Mapping] = (),
+                      highlight: str | None = None, highlight_at: str | None = None) -> list[dict]:
+    """The trend charts from their series: ``soil_series`` as (depth, rows,
+    n) in depth order, ``sol_series`` as (sample kind, rows, n) in legend
+    order; ``n`` how many readings the series holds, ``rows`` them all or the
+    candidates kept by the database (``store.site_rows``)."""
     crop = site_crop(dict(site))
     tmap = targets_for_crop(targets, crop)
     specs = []
-    soil = [r for r in cur if r.get("sample") in SOIL_KINDS and _ece(r) is not None]
-    if soil:
-        series = []
-        for d in sorted({r.get("depth_cm") for r in soil}, key=_depth_sort):
-            name = depth_label(d)
-            series.append({"name": name, "points": [_point(r, _ece(r), name) for r in soil
-                                                      if r.get("depth_cm") == d]})
+    mark = highlight_at or highlight
+    if soil_series:
+        series = [_series(depth_label(d), rs, n, _ece, highlight) for d, rs, n in soil_series]
         lines = crop_lines(crop)
         t = tmap.get("ece")
         for lim, k in (("lo_dS_m", "low"), ("hi_dS_m", "high")):
@@ -143,32 +173,33 @@ def _chart_specs(site: Mapping, readings: Iterable[Mapping], targets: Iterable[M
                               "label": f"your ECe target ({k})"})
         specs.append({"id": "soil", "title": "Soil salinity (ECe) over time, by depth",
                       "y_label": "ECe, dS/m", "series": series, "bands": soil_bands(),
-                      "lines": lines, "highlight": highlight,
+                      "lines": lines, "highlight": mark,
                       "bands_source": tolerance.SOIL_SALINITY_SOURCE})
-    sol = [r for r in cur if r.get("sample") in SOLUTION_KINDS and _ec25(r) is not None]
-    if sol:
-        kinds = [k for k in SOLUTION_KINDS if any(r["sample"] == k for r in sol)]
-        series = [{"name": _kind_short(k), "points": [_point(r, _ec25(r), _kind_short(k))
-                                                      for r in sol if r["sample"] == k]}
-                  for k in kinds]
-        lines = []
-        for k in kinds:
-            t = tmap.get(k)
-            if not t:
-                continue
-            for lim, which in (("lo_dS_m", "low"), ("hi_dS_m", "high")):
-                if t.get(lim) is not None:
-                    lines.append({"y": t[lim], "key": f"target_{k}_{which}",
-                                  "dash": "10 3 2 3" if which == "low" else "4 2",
-                                  "label": f"your {_kind_short(k)} target ({which})"})
+    if sol_series:
+        kinds = [k for k, _, _ in sol_series]
+        series = [_series(_kind_short(k), rs, n, _ec25, highlight) for k, rs, n in sol_series]
         spec = {"id": "solution", "title": "EC at 25 °C over time, by sample",
                 "y_label": "EC at 25 °C, dS/m", "series": series, "bands": [],
-                "lines": lines[:4], "highlight": highlight}
+                "lines": _target_lines(kinds, tmap)[:4], "highlight": mark}
         if kinds == ["water"]:
             spec["bands"] = water_bands()
             spec["bands_source"] = tolerance.WATER_HAZARD_SOURCE
         specs.append(spec)
     return specs
+
+
+def _target_lines(kinds, tmap) -> list[dict]:
+    lines = []
+    for k in kinds:
+        t = tmap.get(k)
+        if not t:
+            continue
+        for lim, which in (("lo_dS_m", "low"), ("hi_dS_m", "high")):
+            if t.get(lim) is not None:
+                lines.append({"y": t[lim], "key": f"target_{k}_{which}",
+                              "dash": "10 3 2 3" if which == "low" else "4 2",
+                              "label": f"your {_kind_short(k)} target ({which})"})
+    return lines
 
 
 _KIND_SHORT = {"water": "water", "feed": "feed", "leachate": "leachate", "drain": "drain",
