@@ -4,6 +4,7 @@
 -- then only the readings of the days the interpretation needs. This index
 -- holds every column that pass reads, by sample kind and depth in time order, so
 -- the pass never reads a reading's full row (with its result JSON); the
--- flagged readings a chart keeps are found through its `flags` column.
+-- flagged readings a chart keeps are found through its `flags` column, and a
+-- chart point (time, value, uuid, flags) is read from the index alone.
 CREATE INDEX readings_site_views ON readings
-    (site_id, sample, depth_cm, taken_at, ece_dS_m, ec25_dS_m, flags);
+    (site_id, sample, depth_cm, taken_at, ece_dS_m, ec25_dS_m, flags, uuid);

@@ -58,7 +58,7 @@ def _profile_picks(soil: list[dict]) -> list[tuple]:
         if t["depth_cm"] is not None:
             depths[t["day"]].add(t["depth_cm"])
     days = sorted(d for d, s in depths.items() if len(s) >= 2)[-2:]
-    return [_pick(k, d) for d in days for k in SOIL]
+    return [_pick(t["sample"], t["day"], t["depth_cm"]) for t in soil if t["day"] in days]
 
 
 def _latest_picks(valued: list[dict]) -> list[tuple]:
@@ -70,10 +70,11 @@ def _latest_picks(valued: list[dict]) -> list[tuple]:
         days = sorted({t["day"] for t in ts})
         if not days:
             continue
-        picks.append(_pick(kind, days[-1]))
+        want = days[-1:]
         if kind == "water" and len(days) > 1 and \
                 sum(t["n_y"] for t in ts if t["day"] == days[-1]) < 2:
-            picks.append(_pick(kind, days[-2]))
+            want = days[-2:]
+        picks += [_pick(kind, t["day"], t["depth_cm"]) for t in ts if t["day"] in want]
     return picks
 
 
@@ -95,8 +96,9 @@ def _feed_leachate_days(conn, site_id: int, valued: list[dict]) -> list[dict]:
             out["n_" + k] = n
         days.append(out)
     shown = {d["date"]: d for d in days[:FEED_LEACHATE_KEYS]}
-    rows = picked_rows(conn, site_id, [_pick(k, day) for day in shown for k in FEED_LEACHATE],
-                       keys_only=True)
+    rows = picked_rows(conn, site_id, [_pick(t["sample"], t["day"], t["depth_cm"])
+                                       for day in shown for k in FEED_LEACHATE
+                                       for t in by_day[day][k]], keys_only=True)
     for k in FEED_LEACHATE:
         for r in rows:
             if r["sample"] == k and r["taken_at"][:10] in shown:
@@ -120,7 +122,7 @@ def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
     for key, by_day in groups.items():
         sizes[key] = sum(t["n_y"] for ts in by_day.values() for t in ts)
         picks += _series_picks(key, by_day, sizes[key] > MOST_POINTS, keep_day, day_buckets)
-    rows = picked_rows(conn, site_id, picks)
+    rows = picked_rows(conn, site_id, picks, keys_only=True)
     if any(n > MOST_POINTS for n in sizes.values()):
         seen = {r["id"] for r in rows}
         rows += [r for r in flagged_rows(conn, site_id, as_of) if r["id"] not in seen]

@@ -41,7 +41,8 @@ _Y = (f"CASE WHEN r.sample IN {SOIL!r} THEN r.ece_dS_m "
 _ROW_COLS = ("r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.ratio, r.theta_g_pct, "
              "r.matric_MPa, r.meter, r.ec25_dS_m, r.ece_dS_m, r.ece_method, r.flags, "
              + ", ".join("r." + c for c in VIEW_COLUMNS) + ", v.visit_date")
-_KEY_COLS = "r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.flags"
+#: What a chart point and a feed/leachate key read: all in the index of schema 019.
+_KEY_COLS = "r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.ece_dS_m, r.ec25_dS_m, r.flags"
 
 
 def next_day(day: str) -> str:
@@ -84,38 +85,46 @@ _PICKS = ("CAST(? AS TEXT), CAST(? AS INTEGER), CAST(? AS DOUBLE PRECISION), "
           "CAST(? AS TEXT), CAST(? AS TEXT), CAST(? AS DOUBLE PRECISION)")
 
 
+#: How a pick names its depth: any depth, one depth, or no depth given.
+_DEPTH = {"any": "", "one": " AND r.depth_cm = w.depth", "none": " AND r.depth_cm IS NULL"}
+
+
 def picked_rows(conn, site_id: int, picks, keys_only: bool = False) -> list[dict]:
     """The current readings matching any pick (:func:`_pick`), oldest first
     (by ``taken_at``, then id), each once, with their flags (``flags``,
-    ``flag_list``). ``keys_only``: id, uuid, sample, depth, time and flags."""
-    picks = list(dict.fromkeys(picks))
+    ``flag_list``). ``keys_only``: the columns of a chart point
+    (``_KEY_COLS``), read from the index alone."""
+    groups: dict[str, list] = {"any": [], "one": [], "none": []}
+    for p in dict.fromkeys(picks):
+        groups["any" if p[1] else "none" if p[2] is None else "one"].append(p)
     found: dict[int, dict] = {}
     cols = _KEY_COLS if keys_only else _ROW_COLS
-    for k in range(0, len(picks), 400):
-        part = picks[k:k + 400]
-        sql = (f"WITH w (sample, any_depth, depth, d0, d1, y) AS (VALUES "
-               + ", ".join(f"({_PICKS})" for _ in part) + f") "
-               f"SELECT {cols} FROM w JOIN readings r ON r.site_id = ? AND r.sample = w.sample "
-               f"AND r.taken_at >= w.d0 AND r.taken_at < w.d1 "
-               f"JOIN visits v ON v.id = r.visit_id "
-               f"WHERE (w.any_depth = 1 OR r.depth_cm = w.depth "
-               f"OR (r.depth_cm IS NULL AND w.depth IS NULL)) "
-               f"AND (w.y IS NULL OR {_Y} = w.y) AND {_CURRENT}")
-        args = [x for p in part for x in p] + [site_id]
-        for row in conn.execute(sql, args):
-            found[row["id"]] = dict(zip(row.keys(), row))
+    join = "" if keys_only else " JOIN visits v ON v.id = r.visit_id"
+    for mode, ps in groups.items():
+        for k in range(0, len(ps), 400):
+            part = ps[k:k + 400]
+            sql = (f"WITH w (sample, any_depth, depth, d0, d1, y) AS (VALUES "
+                   + ", ".join(f"({_PICKS})" for _ in part) + f") "
+                   f"SELECT {cols} FROM w JOIN readings r ON r.site_id = ? "
+                   f"AND r.sample = w.sample{_DEPTH[mode]} "
+                   f"AND r.taken_at >= w.d0 AND r.taken_at < w.d1{join} "
+                   f"WHERE (w.y IS NULL OR {_Y} = w.y) AND {_CURRENT}")
+            for row in conn.execute(sql, [x for p in part for x in p] + [site_id]):
+                found[row["id"]] = dict(zip(row.keys(), row))
     return _with_flags(conn, sorted(found.values(), key=lambda r: (r["taken_at"], r["id"])))
 
 
 def flagged_rows(conn, site_id: int, as_of: str | None = None) -> list[dict]:
     """Current readings with a value (up to ``as_of``) that carry a warning or
-    an error: a chart keeps every one of them."""
+    an error, as chart points (``_KEY_COLS``): a chart keeps every one."""
     cond, args = _before(as_of)
-    sql = (f"SELECT {_ROW_COLS} FROM readings r JOIN visits v ON v.id = r.visit_id "
-           f"WHERE r.site_id = ?{cond} AND r.flags <> '' AND {_Y} IS NOT NULL AND {_CURRENT} "
+    sql = (f"SELECT {_KEY_COLS} FROM readings r "
+           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond} AND r.flags <> '' "
+           f"AND {_Y} IS NOT NULL AND {_CURRENT} "
            f"AND EXISTS (SELECT 1 FROM reading_flags f WHERE f.reading_id = r.id "
-           f"AND f.severity IN ('warning', 'error')) ORDER BY r.taken_at, r.id")
-    return _with_flags(conn, [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args))])
+           f"AND f.severity IN ('warning', 'error'))")
+    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args))]
+    return _with_flags(conn, sorted(rows, key=lambda r: (r["taken_at"], r["id"])))
 
 
 def _with_flags(conn, rows: list[dict]) -> list[dict]:
