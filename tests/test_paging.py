@@ -147,9 +147,14 @@ def test_long_chart_series_are_thinned_keeping_extremes_and_flags():
     assert len(out) <= interpret.MAX_POINTS_PER_SERIES + 5
     assert {"777", "15000", "3", "9999", "19998"} <= keys
     assert [p["t"] for p in out] == sorted(p["t"] for p in out)
-    # every bucket's own highest value survives: the upper envelope is kept
+    # every bucket's own highest value survives: the upper envelope is kept (buckets
+    # are equal spans of calendar days from the first day to the last)
+    import datetime as dt
     ts = sorted(pts, key=lambda p: p["t"])
-    size = -(-len(ts) // (interpret.MAX_POINTS_PER_SERIES // 2))
-    for k in range(0, len(ts), size):
-        assert max(ts[k:k + size], key=lambda p: p["y"])["key"] in keys
+    o = [dt.date.fromisoformat(p["t"][:10]).toordinal() for p in ts]
+    n_b = interpret.MAX_POINTS_PER_SERIES // 2
+    for b in range(n_b):
+        span = [p for p, d in zip(ts, o) if (d - o[0]) * n_b // (o[-1] - o[0] + 1) == b]
+        if span:
+            assert max(span, key=lambda p: p["y"])["key"] in keys
     assert interpret.thin_points(pts[:50]) == pts[:50]

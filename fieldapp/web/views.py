@@ -25,8 +25,16 @@ bp = Blueprint("views", __name__)
 MATRIX_MAX_SITES = 10
 
 
-def _site_readings(db, site_id: int) -> list[dict]:
-    return store.view_readings(db, site_id)     # columns only, no result JSON
+def interpretation(db, site, targets, as_of: str | None = None, highlight: str | None = None,
+                   highlight_at: str | None = None) -> tuple[dict, list[dict], dict | None]:
+    """The summary, the chart data and the profile of a site, up to ``as_of``,
+    from the few rows the database picks for them (``store.site_rows``)."""
+    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight)
+    summary = interpret.summary_from_rows(site, rows, targets, as_of=as_of)
+    specs = interpret.specs_from_series(site, rows["soil_series"], rows["sol_series"], targets,
+                                        highlight=highlight, highlight_at=highlight_at)
+    prof = interpret.profile_spec(site, rows["profile"], day=as_of)
+    return summary, specs, prof
 
 
 def _svg(s: str) -> Markup | None:
@@ -44,15 +52,13 @@ def _chart_figures(specs: list[dict]) -> list[dict]:
 def site_view(db, site) -> dict:
     """Everything the summary partial at the top of the site log shows."""
     site = dict(site)
-    readings = _site_readings(db, site["id"])
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
-    summary = interpret.site_summary(site, readings, targets)
-    prof = interpret.profile_spec(site, readings)
+    summary, specs, prof = interpretation(db, site, targets)
     visits = store.visits_for_site(db, site["id"])
     return {
         "s": summary,
-        "charts": _chart_figures(interpret.chart_specs(site, readings, targets)),
+        "charts": _chart_figures(specs),
         "profile": prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))},
         "targets": targets,
         "measures": interpret.TARGET_MEASURES,
@@ -130,14 +136,13 @@ def report(site_id):
             r["acks"] = {a["code"]: a for a in acks.get(r["id"], [])}
             r["sample_label"] = extracts.SAMPLE_KINDS.get(r["sample"]).label \
                 if r["sample"] in extracts.SAMPLE_KINDS else r["sample"]
-        all_readings = _site_readings(db, site_id)
         crop = interpret.site_crop(site)
         targets = store.list_targets(db, crop.name) if crop else []
         day = visit["visit_date"]
-        summary = interpret.site_summary(site, all_readings, targets, as_of=day)
-        figures = _chart_figures(interpret.chart_specs(site, all_readings, targets, as_of=day,
-                                                       highlight=day))
-        prof = interpret.profile_spec(site, all_readings, day=day)
+        # "this visit" is drawn at the time of the visit's first reading, not at its midnight
+        summary, specs, prof = interpretation(db, site, targets, as_of=day, highlight=day,
+                                              highlight_at=rows[0]["taken_at"] if rows else None)
+        figures = _chart_figures(specs)
         profile = prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))}
         checks = meter_checks(db, readings, max_age_days())
     sv = None
@@ -215,12 +220,9 @@ def summary_json(site_id):
             dt.date.fromisoformat(as_of)
         except ValueError:
             raise InputError("as_of must be a date like 2026-05-14.", "as_of") from None
-    readings = _site_readings(db, site_id)
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
-    out = interpret.site_summary(site, readings, targets, as_of=as_of)
-    out["charts"] = interpret.chart_specs(site, readings, targets, as_of=as_of)
-    out["profile"] = interpret.profile_spec(site, readings, day=as_of)
+    out, out["charts"], out["profile"] = interpretation(db, site, targets, as_of=as_of)
     visits = store.visits_for_site(db, site_id)
     out["visits"] = [dict(v) for v in visits[:SUMMARY_VISITS]]   # newest first
     out["visits_total"] = len(visits)

@@ -1,0 +1,145 @@
+"""What the site views select (site page, visit report, summary API): the few
+rows each part of the interpretation needs, chosen by the database.
+
+A site of 25,000 readings is not read whole. One pass over the index of
+schema 019 gives, for each sample kind, depth and day, the count of current
+readings and the lowest, highest and mean value (:func:`day_totals`); from
+those the latest day of each depth, the last two soil days, the latest water,
+substrate and feed/leachate days and each chart's time buckets are known, and
+only the readings of those days (or only those holding a bucket's extreme)
+are fetched (:func:`picked_rows`), with every current reading that carries a
+warning or an error (:func:`flagged_rows`). ``fieldapp.interpret`` gives the
+rows their meaning; what it computes from them is the same as from every
+reading of the site (``tests/test_site_views.py`` holds the two side by side).
+
+"Current" is the definition of the ``reading_status`` view (schema 001):
+neither voided nor replaced by a correction. It is written here as two
+``NOT IN`` tests, because joining the view costs a lookup of every reading's
+full row, which is what this module avoids. Portable SQL only (``?``
+placeholders, CTEs, CASE, MIN/MAX/AVG, GROUP BY, substr): the days are
+``substr(taken_at, 1, 10)``, which is how every visit's date is made
+(``readings._visit_id``, ``imports``).
+"""
+from __future__ import annotations
+
+import datetime as dt
+from collections import defaultdict
+
+from .core import VIEW_COLUMNS
+
+SOIL = ("paste", "extract")
+SOLUTIONS = ("water", "feed", "leachate", "drain", "sme", "media")
+SUBSTRATE = ("sme", "media", "leachate")
+FEED_LEACHATE = ("feed", "leachate")
+
+_CURRENT = ("r.id NOT IN (SELECT reading_id FROM voids) AND r.id NOT IN "
+            "(SELECT supersedes_id FROM readings WHERE supersedes_id IS NOT NULL)")
+#: The value a reading is drawn and interpreted by: ECe for soil, EC25 else.
+_Y = (f"CASE WHEN r.sample IN {SOIL!r} THEN r.ece_dS_m "
+      f"WHEN r.sample IN {SOLUTIONS!r} THEN r.ec25_dS_m END")
+
+_ROW_COLS = ("r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.ratio, r.theta_g_pct, "
+             "r.matric_MPa, r.meter, r.ec25_dS_m, r.ece_dS_m, r.ece_method, r.flags, "
+             + ", ".join("r." + c for c in VIEW_COLUMNS) + ", v.visit_date")
+#: What a chart point and a feed/leachate key read: all in the index of schema 019.
+_KEY_COLS = "r.id, r.uuid, r.sample, r.depth_cm, r.taken_at, r.ece_dS_m, r.ec25_dS_m, r.flags"
+
+
+def next_day(day: str) -> str:
+    """The day after a YYYY-MM-DD day: ``taken_at < next_day(d)`` is
+    ``substr(taken_at, 1, 10) <= d`` as a range the index can walk."""
+    return (dt.date.fromisoformat(day) + dt.timedelta(days=1)).isoformat()
+
+
+def _before(as_of: str | None) -> tuple[str, tuple]:
+    return ("", ()) if as_of is None else (" AND r.taken_at < ?", (next_day(as_of),))
+
+
+def day_totals(conn, site_id: int, as_of: str | None = None) -> list[dict]:
+    """For each sample kind, depth and day (up to ``as_of``): how many current
+    readings (``n``), how many with a value (``n_y``) and their lowest,
+    highest and mean value (ECe for soil, EC at 25 °C for solutions)."""
+    cond, args = _before(as_of)
+    sql = (f"SELECT r.sample, r.depth_cm, substr(r.taken_at, 1, 10) AS day, COUNT(*) AS n, "
+           f"COUNT({_Y}) AS n_y, MIN({_Y}) AS lo, MAX({_Y}) AS hi, AVG({_Y}) AS mean "
+           f"FROM readings r WHERE r.site_id = ?{cond} AND {_CURRENT} "
+           f"GROUP BY r.sample, r.depth_cm, substr(r.taken_at, 1, 10) ORDER BY day")
+    return [dict(zip(row.keys(), row)) for row in conn.execute(sql, (site_id, *args))]
+
+
+def reading_count(conn, site_id: int) -> int:
+    """Every reading version of the site (current, corrected and void)."""
+    return conn.execute("SELECT COUNT(*) FROM readings WHERE site_id = ?",
+                        (site_id,)).fetchone()[0]
+
+
+def _pick(sample, day, depth=..., y=None, last_day=None) -> tuple:
+    """One VALUES row: a sample kind, a depth (``...``: any), a day range
+    [day, last_day] and a value (None: every reading)."""
+    any_depth = depth is ...
+    return (sample, 1 if any_depth else 0, None if any_depth else depth, day,
+            next_day(last_day or day), y)
+
+
+_PICKS = ("CAST(? AS TEXT), CAST(? AS INTEGER), CAST(? AS DOUBLE PRECISION), "
+          "CAST(? AS TEXT), CAST(? AS TEXT), CAST(? AS DOUBLE PRECISION)")
+
+
+#: How a pick names its depth: any depth, one depth, or no depth given.
+_DEPTH = {"any": "", "one": " AND r.depth_cm = w.depth", "none": " AND r.depth_cm IS NULL"}
+
+
+def picked_rows(conn, site_id: int, picks, keys_only: bool = False) -> list[dict]:
+    """The current readings matching any pick (:func:`_pick`), oldest first
+    (by ``taken_at``, then id), each once, with their flags (``flags``,
+    ``flag_list``). ``keys_only``: the columns of a chart point
+    (``_KEY_COLS``), read from the index alone."""
+    groups: dict[str, list] = {"any": [], "one": [], "none": []}
+    for p in dict.fromkeys(picks):
+        groups["any" if p[1] else "none" if p[2] is None else "one"].append(p)
+    found: dict[int, dict] = {}
+    cols = _KEY_COLS if keys_only else _ROW_COLS
+    join = "" if keys_only else " JOIN visits v ON v.id = r.visit_id"
+    for mode, ps in groups.items():
+        for k in range(0, len(ps), 400):
+            part = ps[k:k + 400]
+            sql = (f"WITH w (sample, any_depth, depth, d0, d1, y) AS (VALUES "
+                   + ", ".join(f"({_PICKS})" for _ in part) + f") "
+                   f"SELECT {cols} FROM w JOIN readings r ON r.site_id = ? "
+                   f"AND r.sample = w.sample{_DEPTH[mode]} "
+                   f"AND r.taken_at >= w.d0 AND r.taken_at < w.d1{join} "
+                   f"WHERE (w.y IS NULL OR {_Y} = w.y) AND {_CURRENT}")
+            for row in conn.execute(sql, [x for p in part for x in p] + [site_id]):
+                found[row["id"]] = dict(zip(row.keys(), row))
+    return _with_flags(conn, sorted(found.values(), key=lambda r: (r["taken_at"], r["id"])))
+
+
+def flagged_rows(conn, site_id: int, as_of: str | None = None) -> list[dict]:
+    """Current readings with a value (up to ``as_of``) that carry a warning or
+    an error, as chart points (``_KEY_COLS``): a chart keeps every one."""
+    cond, args = _before(as_of)
+    sql = (f"SELECT {_KEY_COLS} FROM readings r "
+           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond} AND r.flags <> '' "
+           f"AND {_Y} IS NOT NULL AND {_CURRENT} "
+           f"AND EXISTS (SELECT 1 FROM reading_flags f WHERE f.reading_id = r.id "
+           f"AND f.severity IN ('warning', 'error'))")
+    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args))]
+    return _with_flags(conn, sorted(rows, key=lambda r: (r["taken_at"], r["id"])))
+
+
+def _with_flags(conn, rows: list[dict]) -> list[dict]:
+    """``flags`` as a list of codes and ``flag_list`` (code and severity, in
+    the reading's order) from ``reading_flags``, as ``view_readings`` gives them."""
+    ids = [r["id"] for r in rows if r["flags"]]
+    sev: dict[int, dict[str, str]] = defaultdict(dict)
+    for k in range(0, len(ids), 500):
+        part = ids[k:k + 500]
+        for fid, code, s in conn.execute(
+                "SELECT reading_id, code, severity FROM reading_flags WHERE reading_id IN ("
+                + ",".join("?" * len(part)) + ")", part):
+            sev[fid][code] = s
+    for r in rows:
+        r["flags"] = [c for c in r["flags"].split(";") if c]
+        r["flag_list"] = [{"code": c, "severity": sev[r["id"]].get(c)} for c in r["flags"]]
+        r["status"] = "current"
+    return rows
