@@ -11,18 +11,39 @@ _BISECTION_STEPS = 56  # 0.7 / 2**56 ~ 1e-17 mol/kg
 
 
 def nacl_molality_from_ec25(ec25, temp_c=25.0) -> np.ndarray:
-    """NaCl molality (mol/kg) whose EC equals the given EC.
+    """NaCl molality whose EC equals the given EC.
 
     Inverts :func:`nacl_ec_from_molality` by vectorized bisection on
     0-0.7 mol/kg (the model is checked to be strictly increasing there at
-    import time). ``ec25`` in dS/m; ``temp_c`` is the temperature the EC
-    refers to -- 25 °C for a compensated reading, which is what the app
-    stores. NaN for EC < 0, EC above the 0.7 mol/kg limit (about
-    62 dS/m at 25 °C), or temperature outside 0-95 °C.
+    import time); at 25 °C a grid and two Newton steps give the same answer
+    faster. The model is molal, so no molarity/molality conversion (and no
+    solution density) enters here; :func:`nacl_molarity_from_molality` exists
+    for comparing with tables given per litre.
 
-    The model is molal, so no molarity/molality conversion (and no solution
-    density) enters here; :func:`nacl_molarity_from_molality` exists for
-    comparing with tables given per litre.
+    Parameters
+    ----------
+    ec25 : array_like
+        EC, dS/m, at ``temp_c``.
+    temp_c : array_like, default 25
+        Temperature the EC refers to, °C (25 for a compensated reading, which
+        is what the app stores); valid 0-95.
+
+    Returns
+    -------
+    numpy.ndarray
+        Molality, mol/kg; NaN for EC < 0, EC above the 0.7 mol/kg limit
+        (about 62 dS/m at 25 °C), or temperature outside 0-95 °C.
+
+    References
+    ----------
+    The forward model :func:`nacl_ec_from_molality` and its sources.
+
+    Examples
+    --------
+    Chambers, Stokes & Stokes (1956): 46.3 dS/m is 0.5 mol/kg NaCl at 25 °C:
+
+    >>> round(float(nacl_molality_from_ec25(46.3)), 2)
+    0.5
     """
     ec = _arr(ec25, "ec25")
     t = _arr(temp_c, "temp_c")

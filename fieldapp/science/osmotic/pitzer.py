@@ -37,10 +37,29 @@ def nacl_osmotic_coefficient(molality, temp_c=25.0) -> np.ndarray:
 
     Parameters
     ----------
-    molality : mol/kg, valid 0-6.
-    temp_c : °C, valid 0-50.
+    molality : array_like
+        NaCl molality, mol/kg; valid 0-6.
+    temp_c : array_like, default 25
+        Temperature, °C; valid 0-50.
 
-    NaN outside the ranges.
+    Returns
+    -------
+    numpy.ndarray
+        phi, dimensionless; NaN outside the ranges.
+
+    References
+    ----------
+    Pitzer, K.S., Mayorga, G. 1973. J. Phys. Chem. 77, 2300. Silvester, L.F.,
+    Pitzer, K.S. 1978. J. Solution Chem. 7, 327.
+
+    Examples
+    --------
+    Robinson & Stokes (1959), Appendix 8.10: phi = 0.921 for 0.5 mol/kg NaCl
+    at 25 °C (from memory; the same value is checked in tests/test_osmotic.py,
+    which also compares other temperatures with PHREEQC's Pitzer database):
+
+    >>> round(float(nacl_osmotic_coefficient(0.5, 25.0)), 3)
+    0.921
     """
     m = _arr(molality, "molality")
     t = _arr(temp_c, "temp_c")

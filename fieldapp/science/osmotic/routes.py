@@ -36,16 +36,34 @@ CAUTION = (
 
 
 def psi_s_handbook60(ec25) -> np.ndarray:
-    r"""Solute potential from USDA Handbook 60, MPa (negative).
+    r"""Solute potential from USDA Handbook 60.
 
-    .. math:: \psi_s = -0.36\,EC_{25}\ \text{atm} = -0.36 \times 0.101325\,EC_{25}
+    .. math:: \psi_s = -0.36\,EC_{25}\ \text{atm} = -0.36 \times 0.101325\,EC_{25}\ \text{MPa}
 
-    ``ec25``: EC at 25 °C in dS/m (= mmhos/cm). The Handbook gives
-    OP ≈ 0.36 × EC as an approximation for soil saturation extracts over
-    roughly 3-30 mmhos/cm; NaN outside that range (see
-    :data:`HANDBOOK60_VALID_dS_m`). Conversion: 1 atm = 0.101325 MPa.
+    The Handbook gives OP ≈ 0.36 × EC as an approximation for soil saturation
+    extracts over roughly 3-30 mmhos/cm (:data:`HANDBOOK60_VALID_dS_m`).
+    Conversion: 1 atm = 0.101325 MPa.
 
-    Source: USDA Handbook 60 (Richards 1954), Chapter 2 -- from memory.
+    Parameters
+    ----------
+    ec25 : array_like
+        EC at 25 °C, dS/m (= mmhos/cm).
+
+    Returns
+    -------
+    numpy.ndarray
+        Solute potential, MPa (negative); NaN outside 3-30 dS/m.
+
+    References
+    ----------
+    USDA Handbook 60 (Richards 1954), Chapter 2 -- from memory.
+
+    Examples
+    --------
+    10 mmhos/cm: OP = 0.36 × 10 = 3.6 atm = 0.365 MPa:
+
+    >>> round(float(psi_s_handbook60(10.0)), 3)
+    -0.365
     """
     ec = _arr(ec25, "ec25")
     psi = -HANDBOOK60_OP_atm_PER_dS_m * ATM_MPa * ec
@@ -53,10 +71,29 @@ def psi_s_handbook60(ec25) -> np.ndarray:
 
 
 def psi_s_rule_004(ec25) -> np.ndarray:
-    r"""Solute potential by the rule of thumb psi_s = −0.04 MPa × EC25 (dS/m).
+    """Solute potential by the rule of thumb psi_s = −0.04 MPa × EC25.
 
-    For NaCl-dominated water (common practice). Valid 0-30 dS/m
-    (:data:`RULE_004_VALID_dS_m`); NaN outside.
+    For NaCl-dominated water (common practice).
+
+    Parameters
+    ----------
+    ec25 : array_like
+        EC at 25 °C, dS/m; valid 0-30 (:data:`RULE_004_VALID_dS_m`).
+
+    Returns
+    -------
+    numpy.ndarray
+        Solute potential, MPa (negative); NaN outside the range.
+
+    References
+    ----------
+    Common practice (no published table behind it); the tests hold it within
+    20 % of :func:`psi_s_nacl_pitzer` up to 30 dS/m.
+
+    Examples
+    --------
+    >>> float(psi_s_rule_004(10.0))   # -0.04 × 10, the rule itself
+    -0.4
     """
     ec = _arr(ec25, "ec25")
     psi = RULE_004_MPa_PER_dS_m * ec
@@ -64,7 +101,7 @@ def psi_s_rule_004(ec25) -> np.ndarray:
 
 
 def psi_s_nacl_pitzer(ec25, temp_c=25.0) -> np.ndarray:
-    r"""Thermodynamic NaCl-equivalent solute potential, MPa (negative).
+    r"""Thermodynamic NaCl-equivalent solute potential.
 
     1. m: NaCl molality whose EC at 25 °C equals ``ec25``
        (:func:`nacl_molality_from_ec25`: the NaCl conductivity fit of
@@ -77,18 +114,39 @@ def psi_s_nacl_pitzer(ec25, temp_c=25.0) -> np.ndarray:
        (Kell 1975). This is -RT ln(a_w)/V_w with ln a_w = -nu m phi M_w and
        V_w = M_w/rho_w; result converted from Pa to MPa.
 
+    Pure water gives 0. For seawater (SP 35 at 25 °C, EC 53.1 dS/m) this
+    gives -2.66 MPa against -2.59 MPa from IAPWS-08, +2.8 %: the composition
+    effect of a mixed salt read as NaCl (tested).
+
     Parameters
     ----------
-    ec25 : EC compensated to 25 °C, dS/m. Valid 0 to
-        :data:`NACL_EC25_MAX_dS_m` (about 62 dS/m).
-    temp_c : solution temperature, °C. Valid 0-50 (Pitzer T-extension).
+    ec25 : array_like
+        EC compensated to 25 °C, dS/m. Valid 0 to :data:`NACL_EC25_MAX_dS_m`
+        (about 62 dS/m).
+    temp_c : array_like, default 25
+        Solution temperature, °C. Valid 0-50 (Pitzer T-extension).
 
-    NaN outside either range (the caller may fall back to
-    :func:`psi_s_handbook60` and flag it). Pure water gives 0.
+    Returns
+    -------
+    numpy.ndarray
+        Solute potential, MPa (negative); NaN outside either range (the
+        caller may fall back to :func:`psi_s_handbook60` and flag it).
 
-    Check: for seawater (SP 35 at 25 °C, EC 53.1 dS/m) this gives -2.66 MPa
-    against -2.59 MPa from IAPWS-08, +2.8 %: the composition effect of a
-    mixed salt read as NaCl (tested).
+    References
+    ----------
+    See :data:`PSI_S_ROUTES` ("nacl_pitzer"): the NaCl conductivity data,
+    McCleskey et al. 2012, Pitzer & Mayorga 1973, Silvester & Pitzer 1978,
+    Kell 1975.
+
+    Examples
+    --------
+    46.3 dS/m is 0.5 mol/kg NaCl (Chambers, Stokes & Stokes 1956), whose
+    phi is 0.921 (Robinson & Stokes 1959, from memory); with rho_w =
+    997.05 kg/m³ (IAPWS-95): -2 × 0.5 × 0.921 × 8.314462618 × 298.15 ×
+    997.05 Pa = -2.28 MPa.
+
+    >>> round(float(psi_s_nacl_pitzer(46.3, 25.0)), 2)
+    -2.28
     """
     ec = _arr(ec25, "ec25")
     t = _arr(temp_c, "temp_c")
@@ -128,11 +186,36 @@ DEFAULT_ROUTE = "nacl_pitzer"
 
 
 def psi_s_all_routes(ec25, temp_c=25.0) -> dict[str, np.ndarray]:
-    """All solute potential routes, MPa, keyed as in :data:`PSI_S_ROUTES`.
+    """All solute potential routes, keyed as in :data:`PSI_S_ROUTES`.
 
-    ``temp_c`` (solution temperature) only affects ``nacl_pitzer``. Each
-    value is NaN where that route is out of range; choosing a fallback and
-    flagging it is the caller's job.
+    Each value is NaN where that route is out of range; choosing a fallback
+    and flagging it is the caller's job.
+
+    Parameters
+    ----------
+    ec25 : array_like
+        EC at 25 °C, dS/m.
+    temp_c : array_like, default 25
+        Solution temperature, °C; only ``nacl_pitzer`` uses it.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Solute potential by route, MPa.
+
+    References
+    ----------
+    Each route's own function: :func:`psi_s_handbook60`,
+    :func:`psi_s_rule_004`, :func:`psi_s_nacl_pitzer`.
+
+    Examples
+    --------
+    At 10 dS/m the Handbook 60 rule gives 3.6 atm and the rule of thumb
+    0.4 MPa:
+
+    >>> r = psi_s_all_routes(10.0)
+    >>> sorted(r), round(float(r["handbook60"]), 3), float(r["rule_004"])
+    (['handbook60', 'nacl_pitzer', 'rule_004'], -0.365, -0.4)
     """
     return {
         "handbook60": psi_s_handbook60(ec25),

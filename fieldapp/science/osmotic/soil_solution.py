@@ -22,7 +22,7 @@ SP_PER_WILTING_POINT = 4.0
 
 
 def soil_solution_ec(ece, sp_pct, theta_g_pct) -> np.ndarray:
-    r"""EC of the soil solution at a gravimetric water content, dS/m.
+    r"""EC of the soil solution at a gravimetric water content.
 
     .. math:: EC_{sw} \approx EC_e \, \frac{SP}{\theta_g}
 
@@ -35,12 +35,32 @@ def soil_solution_ec(ece, sp_pct, theta_g_pct) -> np.ndarray:
 
     Parameters
     ----------
-    ece : EC of the saturated-paste extract, dS/m (>= 0).
-    sp_pct : saturation percentage, g water per 100 g dry soil (> 0).
-    theta_g_pct : gravimetric water content, % (same basis).
+    ece : array_like
+        EC of the saturated-paste extract, dS/m (>= 0).
+    sp_pct : array_like
+        Saturation percentage, g water per 100 g dry soil (> 0).
+    theta_g_pct : array_like
+        Gravimetric water content, % (same basis). Valid SP/4 <= theta_g <= SP
+        (saturation down to about the wilting point,
+        :data:`SP_PER_WILTING_POINT`).
 
-    Valid for SP/4 <= theta_g <= SP (saturation down to about the wilting
-    point, :data:`SP_PER_WILTING_POINT`); NaN outside.
+    Returns
+    -------
+    numpy.ndarray
+        EC of the soil solution, dS/m; NaN outside the range.
+
+    References
+    ----------
+    FAO Irrigation and Drainage Paper 29 (Ayers & Westcot 1985) -- from
+    memory; common practice.
+
+    Examples
+    --------
+    At field capacity (theta_g = SP / 2) the soil solution is twice ECe
+    (FAO 29):
+
+    >>> float(soil_solution_ec(4.0, 40.0, 20.0))
+    8.0
     """
     e = _arr(ece, "ece")
     sp = _arr(sp_pct, "sp_pct")
@@ -52,31 +72,91 @@ def soil_solution_ec(ece, sp_pct, theta_g_pct) -> np.ndarray:
 
 
 def field_capacity_theta_g(sp_pct) -> np.ndarray:
-    """Gravimetric water content at field capacity, %: SP / 2.
+    """Gravimetric water content at field capacity: SP / 2.
 
+    Parameters
+    ----------
+    sp_pct : array_like
+        Saturation percentage, %.
+
+    Returns
+    -------
+    numpy.ndarray
+        Water content at field capacity, % (g water per 100 g dry soil); NaN
+        for SP <= 0.
+
+    References
+    ----------
     Common practice (SP ≈ 2 × field capacity; FAO 29, Ayers & Westcot 1985
-    -- from memory). NaN for SP <= 0.
+    -- from memory).
+
+    Examples
+    --------
+    >>> float(field_capacity_theta_g(40.0))   # SP 40 %: half of it
+    20.0
     """
     sp = _arr(sp_pct, "sp_pct")
     return np.where(sp > 0, sp / SP_PER_FIELD_CAPACITY, np.nan)
 
 
 def soil_solution_ec_at_field_capacity(ece) -> np.ndarray:
-    """EC of the soil solution at field capacity, dS/m: 2 × ECe.
+    """EC of the soil solution at field capacity: 2 × ECe.
 
-    Common practice (FAO 29, Ayers & Westcot 1985 -- from memory); equal to
-    :func:`soil_solution_ec` at theta_g = :func:`field_capacity_theta_g`.
-    NaN for ECe < 0.
+    Equal to :func:`soil_solution_ec` at theta_g = :func:`field_capacity_theta_g`.
+
+    Parameters
+    ----------
+    ece : array_like
+        EC of the saturated-paste extract, dS/m.
+
+    Returns
+    -------
+    numpy.ndarray
+        EC of the soil solution at field capacity, dS/m; NaN for ECe < 0.
+
+    References
+    ----------
+    FAO 29 (Ayers & Westcot 1985): ECsw ≈ 2 ECe -- from memory; common
+    practice.
+
+    Examples
+    --------
+    >>> float(soil_solution_ec_at_field_capacity(4.0))   # ECsw = 2 ECe
+    8.0
     """
     e = _arr(ece, "ece")
     return np.where(e >= 0, SP_PER_FIELD_CAPACITY * e, np.nan)
 
 
 def total_water_potential(psi_s_MPa, matric_MPa) -> np.ndarray:
-    """Total soil water potential, MPa: matric + solute.
+    """Total soil water potential: matric + solute.
 
-    Both parts are <= 0 (MPa); gravity and overburden are ignored. NaN if
-    either part is positive or NaN.
+    Gravity and overburden are ignored.
+
+    Parameters
+    ----------
+    psi_s_MPa : array_like
+        Solute potential, MPa (<= 0).
+    matric_MPa : array_like
+        Matric potential, MPa (<= 0).
+
+    Returns
+    -------
+    numpy.ndarray
+        Total potential, MPa; NaN if either part is positive or NaN.
+
+    References
+    ----------
+    The definition of total water potential as the sum of its components
+    (gravity and pressure left out).
+
+    Examples
+    --------
+    A solute potential of -0.4 MPa at field capacity (-0.033 MPa, common
+    practice):
+
+    >>> round(float(total_water_potential(-0.4, -0.033)), 3)
+    -0.433
     """
     ps = _arr(psi_s_MPa, "psi_s_MPa")
     pm = _arr(matric_MPa, "matric_MPa")
@@ -84,10 +164,28 @@ def total_water_potential(psi_s_MPa, matric_MPa) -> np.ndarray:
 
 
 def margin_to_wilting_point(total_MPa) -> np.ndarray:
-    """MPa left above the permanent wilting point (−1.5 MPa, common practice).
+    """MPa left above the permanent wilting point (−1.5 MPa).
 
-    Positive: the soil water is still above the wilting point; negative:
-    beyond it. NaN for a positive (impossible) total potential.
+    Parameters
+    ----------
+    total_MPa : array_like
+        Total soil water potential, MPa (<= 0).
+
+    Returns
+    -------
+    numpy.ndarray
+        Margin, MPa: positive while the soil water is above the wilting point,
+        negative beyond it; NaN for a positive (impossible) total potential.
+
+    References
+    ----------
+    Permanent wilting point at −15 bar (Richards & Weaver 1943 -- from memory;
+    common practice, :data:`PERMANENT_WILTING_POINT_MPa`).
+
+    Examples
+    --------
+    >>> round(float(margin_to_wilting_point(-0.433)), 3)   # -0.433 - (-1.5)
+    1.067
     """
     tot = _arr(total_MPa, "total_MPa")
     return np.where(tot <= 0, tot - PERMANENT_WILTING_POINT_MPa, np.nan)
