@@ -51,9 +51,9 @@ def _check_sp(sp_pct) -> float:
 
 
 def ece_sp_dilution(ec_1N_dS_m, n, sp_pct) -> np.ndarray:
-    """ECe from a 1:N soil:water extract by ideal dilution.
+    r"""ECe from a 1:N soil:water extract by ideal dilution.
 
-    .. math:: EC_e \\approx EC_{1:N} \\cdot \\frac{100\\,N}{SP}
+    .. math:: EC_e \approx EC_{1:N} \cdot \frac{100\,N}{SP}
 
     Parameters
     ----------
@@ -87,6 +87,14 @@ def ece_sp_dilution(ec_1N_dS_m, n, sp_pct) -> np.ndarray:
     extract). Rhoades, J.D., Chanduvi, F., Lesch, S. 1999. Soil salinity
     assessment. FAO Irrigation and Drainage Paper 57. Dilution arithmetic:
     common practice.
+
+    Examples
+    --------
+    A 1:5 extract of 0.5 dS/m from a soil of SP 40 %: 500 g of water per 100 g
+    of soil against 40 g in the paste, so ECe = 0.5 × 500 / 40 = 6.25 dS/m:
+
+    >>> float(ece_sp_dilution(0.5, 5, 40.0))
+    6.25
     """
     ec = _as_ec(ec_1N_dS_m)
     n = check_ratio_n(n)

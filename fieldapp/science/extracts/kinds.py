@@ -85,6 +85,22 @@ def check_ratio_n(n) -> float:
     number out of range are handed to :func:`fieldapp.forms.parse_ratio`,
     which reads the text and words the message (field ``"ratio"``).
 
+    Parameters
+    ----------
+    n : float or str
+        Parts of water per part of sample (the N of 1:N), or text as typed.
+
+    Returns
+    -------
+    float
+        N.
+
+    References
+    ----------
+    The 1:N notation of the extract methods (USDA Handbook 60; FAO 57).
+
+    Examples
+    --------
     >>> check_ratio_n(5), check_ratio_n("1:2.5")
     (5.0, 2.5)
     """

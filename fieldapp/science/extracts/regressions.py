@@ -84,14 +84,61 @@ def _same_ratio(a: float, b: float, tol: float = 0.01) -> bool:
 
 
 def regressions_for_ratio(n) -> list[Regression]:
-    """Published regressions whose ratio is within 1 % of 1:N (default first)."""
+    """Published regressions whose ratio is within 1 % of 1:N (default first).
+
+    Parameters
+    ----------
+    n : float or str
+        N of the 1:N extract.
+
+    Returns
+    -------
+    list of Regression
+        The lines for that ratio from ``ece_regressions.csv``, the default for
+        the ratio first, then by name.
+
+    References
+    ----------
+    Each row's ``source`` column (PLoS ONE 13(6):e0198290 Table 2; Rayment and
+    Lyons 2011 method 14B1 Table 14.2; Slavich and Petterson 1993).
+
+    Examples
+    --------
+    >>> [r.name for r in regressions_for_ratio(5)][:2]
+    ['lyons_2003_1to5', 'loveday_1972_1to5']
+    """
     n = check_ratio_n(n)
     found = [r for r in REGRESSIONS.values() if _same_ratio(r.ratio_n, n)]
     return sorted(found, key=lambda r: (not r.default_for_ratio, r.name))
 
 
 def default_regression(n) -> Regression | None:
-    """The regression used for 1:N when neither SP nor texture is known."""
+    """The regression used for 1:N when neither SP nor texture is known.
+
+    Parameters
+    ----------
+    n : float or str
+        N of the 1:N extract.
+
+    Returns
+    -------
+    Regression or None
+        The row marked ``default_for_ratio``, or None where no line is stored.
+
+    References
+    ----------
+    ``ece_regressions.csv`` (the ``default_for_ratio`` column is this
+    project's choice; the coefficients are the sources').
+
+    Examples
+    --------
+    For 1:1, the combined sandy and loamy line of PLoS ONE 2018 Table 2
+    (ref [63]), ECe = 2.23 EC1:1 - 0.58:
+
+    >>> r = default_regression(1)
+    >>> r.name, r.a, r.b
+    ('plos2018_ref63_1to1_combined', 2.23, -0.58)
+    """
     for r in regressions_for_ratio(n):
         if r.default_for_ratio:
             return r
@@ -99,7 +146,30 @@ def default_regression(n) -> Regression | None:
 
 
 def find_regression(name) -> Regression:
-    """A regression by name; a leading ``regression:`` is accepted."""
+    """A regression by name; a leading ``regression:`` is accepted.
+
+    Parameters
+    ----------
+    name : str
+        Key of :data:`REGRESSIONS`, any case, optionally ``regression:<name>``.
+
+    Returns
+    -------
+    Regression
+        The line; an unknown name raises :class:`InputError` (field
+        ``"method"``) listing the known ones.
+
+    References
+    ----------
+    ``ece_regressions.csv``, a source per row.
+
+    Examples
+    --------
+    Talsma (1968), ECe = 6.4 × EC1:5 (Rayment and Lyons 2011, Table 14.2):
+
+    >>> find_regression("regression:talsma_1968_1to5").a
+    6.4
+    """
     key = str(name or "").strip()
     if key.lower().startswith("regression:"):
         key = key.split(":", 1)[1].strip()
@@ -113,12 +183,12 @@ def find_regression(name) -> Regression:
 
 
 def ece_regression(ec_dS_m, name, sp_pct=None) -> np.ndarray:
-    """ECe from EC(1:N) by a published regression.
+    r"""ECe from EC(1:N) by a published regression.
 
-    .. math:: EC_e = a\\,EC_{1:N} + b \\qquad\\text{(linear)}
+    .. math:: EC_e = a\,EC_{1:N} + b \qquad\text{(linear)}
 
-    .. math:: EC_e = (a + b/\\theta_{SP})\\,EC_{1:5} \\qquad\\text{(sp\\_factor,
-              Slavich and Petterson 1993; } \\theta_{SP} = SP/100\\text{ kg/kg)}
+    .. math:: EC_e = (a + b/\theta_{SP})\,EC_{1:5} \qquad\text{(sp\_factor,
+              Slavich and Petterson 1993; } \theta_{SP} = SP/100\text{ kg/kg)}
 
     Parameters
     ----------
@@ -140,6 +210,19 @@ def ece_regression(ec_dS_m, name, sp_pct=None) -> np.ndarray:
     Each line was fitted on a regional set of soils (see ``soils`` and
     ``source``); outside that population the error can be far larger than
     the fit statistics suggest.
+
+    References
+    ----------
+    Each row's ``source`` in ``ece_regressions.csv``.
+
+    Examples
+    --------
+    Hogg and Henry (1984), coarse soils, 1:1: ECe = 3.01 EC1:1 - 0.06
+    (coefficients as printed in PLoS ONE 13(6):e0198290 Table 2), so 2 dS/m
+    gives 3.01 × 2 - 0.06 = 5.96 dS/m:
+
+    >>> round(float(ece_regression(2.0, "hogg_henry_1to1_coarse")), 2)
+    5.96
     """
     reg = find_regression(name)
     ec = _as_ec(ec_dS_m)

@@ -34,10 +34,34 @@ SUBSTRATE_METHOD_FOR_SAMPLE = {"sme": "sme", "media": "media_1to2", "leachate": 
 def substrate_ranges(method) -> list[SubstrateRange]:
     """Interpretation bands (very_low ... extreme) for a substrate test method.
 
-    ``method`` is one of :data:`SUBSTRATE_METHODS` (``sme``, ``media_1to2``,
-    ``pour_through``) or a sample kind mapped by
-    :data:`SUBSTRATE_METHOD_FOR_SAMPLE`. The bands are general greenhouse
-    guidance; crop-specific targets differ.
+    The bands are general greenhouse guidance; crop-specific targets differ.
+
+    Parameters
+    ----------
+    method : str
+        One of :data:`SUBSTRATE_METHODS` (``sme``, ``media_1to2``,
+        ``pour_through``) or a sample kind mapped by
+        :data:`SUBSTRATE_METHOD_FOR_SAMPLE`.
+
+    Returns
+    -------
+    list of SubstrateRange
+        The bands, lowest first, in dS/m (``lo`` inclusive); an unknown method
+        raises :class:`InputError` (field ``"method"``).
+
+    References
+    ----------
+    ``substrate_ranges.csv``: attributed to Cavins et al. (2000), NC State
+    University Horticulture Information Leaflet 590, read from a web copy of
+    the table; marked "unverified" until checked against the leaflet.
+
+    Examples
+    --------
+    The saturated media extract's "normal" band, 2.0-3.5 dS/m, as the table
+    row reads:
+
+    >>> [(r.lo_dS_m, r.hi_dS_m) for r in substrate_ranges("sme") if r.level == "normal"]
+    [(2.0, 3.5)]
     """
     key = _norm(method or "").replace(" ", "_")
     key = SUBSTRATE_METHOD_FOR_SAMPLE.get(key, key)

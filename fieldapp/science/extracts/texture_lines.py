@@ -81,7 +81,35 @@ def _texture_spread_pct(tex: Texture) -> float:
 
 
 def hogg_henry_for_texture(n, texture) -> Regression | None:
-    """The Hogg and Henry (1984) line for a 1:1 or 1:2 extract of a texture class."""
+    """The Hogg and Henry (1984) line for a 1:1 or 1:2 extract of a texture class.
+
+    Parameters
+    ----------
+    n : float or str
+        N of the 1:N extract.
+    texture : str
+        A USDA texture class name.
+
+    Returns
+    -------
+    Regression or None
+        The line of the texture's group (:data:`HOGG_HENRY_GROUP`), or None
+        for ratios other than 1:1 and 1:2.
+
+    References
+    ----------
+    Hogg, T.J., Henry, J.L. 1984, coefficients as printed in PLoS ONE
+    13(6):e0198290 Table 2; the class-to-group assignment is this project's
+    (common practice).
+
+    Examples
+    --------
+    Clay is a fine soil; the 1:2 line for fine soils is ECe = 2.16 EC1:2 + 0.03:
+
+    >>> r = hogg_henry_for_texture(2, "clay")
+    >>> r.name, r.a, r.b
+    ('hogg_henry_1to2_fine', 2.16, 0.03)
+    """
     n = check_ratio_n(n)
     tex = find_texture(texture)
     ratio = "1to1" if _same_ratio(n, 1.0) else "1to2" if _same_ratio(n, 2.0) else None
