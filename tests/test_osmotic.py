@@ -491,7 +491,8 @@ def test_fast_inversion_at_25C_equals_bisection(monkeypatch):
     """The 25 °C grid-and-Newton path must give the bisection's answer."""
     ec = np.linspace(0.0, o.NACL_EC25_MAX_dS_m, 20001)
     fast = o.nacl_molality_from_ec25(ec, 25.0)
-    monkeypatch.setattr(o, "_GRID_T_C", -999.0)   # force the bisection path
+    from fieldapp.science.osmotic import nacl_inversion
+    monkeypatch.setattr(nacl_inversion, "_GRID_T_C", -999.0)   # force the bisection path
     slow = o.nacl_molality_from_ec25(ec, 25.0)
     assert not np.isnan(fast).any()
     np.testing.assert_allclose(fast, slow, rtol=1e-10, atol=1e-14)
