@@ -15,6 +15,10 @@ from fieldapp import csvio, store
 sys.path.insert(0, str(Path(__file__).resolve().parent / "benchmarks"))
 import bench  # noqa: E402  (tests/benchmarks/bench.py: the invented log builder)
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 
 @pytest.fixture
 def source(tmp_path):
