@@ -93,6 +93,25 @@ def pg_db(pg_admin):
 
 
 @pytest.fixture
+def log_target(tmp_path, backend, request):
+    """What ``store.connect`` opens for a store test without an app: a SQLite
+    file in a fresh folder, or a fresh PostgreSQL database's URL."""
+    if backend == "postgresql":
+        return request.getfixturevalue("pg_db")
+    (tmp_path / "log").mkdir()
+    return tmp_path / "log" / "fieldapp.sqlite3"
+
+
+def lock_wait(conn, ms: int) -> None:
+    """How long a writer waits for another one before giving up, on either backend."""
+    from fieldapp import store
+    if store.dialect(conn) == "postgresql":
+        conn.execute(f"SET lock_timeout = '{int(ms)}ms'")
+    else:
+        conn.execute(f"PRAGMA busy_timeout = {int(ms)}")
+
+
+@pytest.fixture
 def app(tmp_path, backend, request):
     from fieldapp import create_app
     from fieldapp.web.db import close_pool
