@@ -24,9 +24,10 @@ def cmd_serve(a) -> int:
     bind = a.host or ("0.0.0.0" if a.lan else "127.0.0.1")
     lan = a.lan or binds_to_network(bind)      # never on the network without pairing
     try:
+        db = getattr(a, "db", None)
         app = create_app({"DATA_DIR": _data_dir(a), "CALIBRATION_MAX_AGE_DAYS": a.check_days,
                           "PAIRING_IDLE_DAYS": a.pairing_idle_days,
-                          "LAN": lan})
+                          "LAN": lan, **({"DB": db, "POOL_SIZE": a.threads + 4} if db else {})})
     except store.StoreError as e:
         raise InputError(e.message, "data") from None
     if app.config.get("LOG_READ_ONLY"):
@@ -38,8 +39,11 @@ def cmd_serve(a) -> int:
         finally:
             conn.close()
         print(f"Demo scenario loaded ({n} new readings; invented data).", flush=True)
-    print(f"fieldapp {__import__('fieldapp').__version__}: log in {app.config['DATABASE']}",
-          flush=True)
+    where = app.config["DATABASE"]
+    if app.config.get("DB_DIALECT") == "postgresql":
+        from .store.pg import redact
+        where = f"{redact(where)} (PostgreSQL)"
+    print(f"fieldapp {__import__('fieldapp').__version__}: log in {where}", flush=True)
     https = None
     if lan and a.https_port:     # --- https for tablets: one call into fieldapp/tls.py ---
         from . import tls

@@ -1,5 +1,14 @@
 """Shared fixtures: a Flask app on a temporary log, its test client, a real
-server process (waitress) for browser tests, and headless Chromium."""
+server process (waitress) for browser tests, and headless Chromium.
+
+Both backends: a test module that sets ``BOTH_BACKENDS = True`` runs each of
+its tests that use ``app``, ``client`` or ``db`` twice, on a SQLite file and
+on a fresh PostgreSQL database (cloned from a migrated template: a real
+server, never a mock). ``FIELDAPP_TEST_PG`` names the server (a
+``postgresql://`` URL of a user that may create databases; tests/run.sh starts
+a throwaway cluster and sets it); without it the PostgreSQL half is skipped.
+``@pytest.mark.sqlite_only`` keeps a test that checks the SQLite file itself
+(PRAGMAs, a damaged page, a read-only folder) on SQLite."""
 from __future__ import annotations
 
 import os
@@ -18,10 +27,100 @@ CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networki
                  "--disable-component-update", "--disable-sync"]
 
 
+PG_SERVER = os.environ.get("FIELDAPP_TEST_PG", "")
+PG_HOW = ("PostgreSQL half skipped: FIELDAPP_TEST_PG is not set. Run bash tests/run.sh as root "
+          "(it installs Debian's postgresql and starts a throwaway cluster), or point "
+          "FIELDAPP_TEST_PG at a server: postgresql://USER@127.0.0.1:PORT/postgres")
+
+
+def pytest_generate_tests(metafunc):
+    if "backend" in metafunc.fixturenames and getattr(metafunc.module, "BOTH_BACKENDS", False):
+        both = metafunc.definition.get_closest_marker("sqlite_only") is None
+        metafunc.parametrize("backend", ["sqlite", "postgresql"] if both else ["sqlite"],
+                             indirect=True)
+
+
+def pytest_report_header(config):
+    return (f"PostgreSQL for the two-backend tests: {_redact(PG_SERVER)}" if PG_SERVER
+            else PG_HOW)
+
+
+def _redact(url: str) -> str:
+    import re
+    return re.sub(r"(://[^:/@]+):[^@]*@", r"\1:***@", url)
+
+
+def _pg_url(dbname: str) -> str:
+    from urllib.parse import urlsplit, urlunsplit
+    parts = urlsplit(PG_SERVER)
+    return urlunsplit(parts._replace(path="/" + dbname))
+
+
 @pytest.fixture
-def app(tmp_path):
+def backend(request):
+    """"sqlite" or "postgresql": the log's backend for this test."""
+    return getattr(request, "param", "sqlite")
+
+
+@pytest.fixture(scope="session")
+def pg_admin():
+    """A connection to the test server, and a template database migrated once."""
+    if not PG_SERVER:
+        pytest.skip(PG_HOW)
+    import psycopg
+
+    from fieldapp import store
+    admin = psycopg.connect(PG_SERVER, autocommit=True)
+    template = f"fieldapp_tpl_{os.getpid()}"
+    admin.execute(f"DROP DATABASE IF EXISTS {template} WITH (FORCE)")
+    admin.execute(f"CREATE DATABASE {template}")
+    store.connect(_pg_url(template)).close()           # every migration, once
+    yield admin, template
+    admin.execute(f"DROP DATABASE IF EXISTS {template} WITH (FORCE)")
+    admin.close()
+
+
+@pytest.fixture
+def pg_db(pg_admin):
+    """A fresh, migrated PostgreSQL database for one test (a clone of the
+    template, about 50 ms), dropped afterwards."""
+    import uuid
+    admin, template = pg_admin
+    name = f"fieldapp_t_{uuid.uuid4().hex[:12]}"
+    admin.execute(f"CREATE DATABASE {name} TEMPLATE {template} STRATEGY FILE_COPY")
+    yield _pg_url(name)
+    admin.execute(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
+
+
+@pytest.fixture
+def log_target(tmp_path, backend, request):
+    """What ``store.connect`` opens for a store test without an app: a SQLite
+    file in a fresh folder, or a fresh PostgreSQL database's URL."""
+    if backend == "postgresql":
+        return request.getfixturevalue("pg_db")
+    (tmp_path / "log").mkdir()
+    return tmp_path / "log" / "fieldapp.sqlite3"
+
+
+def lock_wait(conn, ms: int) -> None:
+    """How long a writer waits for another one before giving up, on either backend."""
+    from fieldapp import store
+    if store.dialect(conn) == "postgresql":
+        conn.execute(f"SET lock_timeout = '{int(ms)}ms'")
+    else:
+        conn.execute(f"PRAGMA busy_timeout = {int(ms)}")
+
+
+@pytest.fixture
+def app(tmp_path, backend, request):
     from fieldapp import create_app
-    return create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "data")})
+    from fieldapp.web.db import close_pool
+    config = {"TESTING": True, "DATA_DIR": str(tmp_path / "data")}
+    if backend == "postgresql":
+        config["DB"] = request.getfixturevalue("pg_db")
+    a = create_app(config)
+    yield a
+    close_pool(a)
 
 
 @pytest.fixture

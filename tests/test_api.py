@@ -7,6 +7,10 @@ import pytest
 
 from fieldapp import store
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 READING = {"uuid": "11111111-2222-4333-8444-555555555555", "site": "Block 3",
            "sample": "extract", "value": "0.84", "unit": "mS/cm", "ratio": "1:5",
            "temp_c": "18", "texture": "clay loam", "depth_cm": "15",

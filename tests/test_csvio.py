@@ -8,6 +8,10 @@ import pytest
 
 from fieldapp import create_app, csvio, store
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 BASE = {"site": "Block 3", "sample": "paste", "unit": "dS/m", "compensated": True}
 
 

@@ -14,6 +14,10 @@ import pytest
 from fieldapp import csvio, store
 from fieldapp.records import build_record, save_reading
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 
 def rows_of(conn, reading_id):
     return [tuple(r) for r in conn.execute(

@@ -3,7 +3,6 @@ chunks, a run killed midway adds nothing and the next run carries on."""
 from __future__ import annotations
 
 import io
-import sqlite3
 
 import pytest
 
@@ -14,6 +13,10 @@ from fieldapp import csvio, store
 
 sys.path.insert(0, str(Path(__file__).resolve().parent / "benchmarks"))
 import bench  # noqa: E402  (tests/benchmarks/bench.py: the invented log builder)
+
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
 
 
 @pytest.fixture
@@ -42,10 +45,10 @@ def dump(conn):
                   for r in store.iter_readings(conn))
 
 
-def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, monkeypatch):
+def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, monkeypatch,
+                                                            log_target):
     monkeypatch.setattr(csvio, "IMPORT_CHUNK", 150)
-    (tmp_path / "a").mkdir()
-    conn = store.connect(tmp_path / "a" / store.DB_NAME)
+    conn = store.connect(log_target)
     real, calls = csvio._convert_chunk, []
 
     def killed_after_three(chunk):
@@ -62,7 +65,7 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
     assert conn.execute("SELECT COUNT(*) FROM import_staging").fetchone()[0] == 450
     conn.close()
 
-    conn = store.connect(tmp_path / "a" / store.DB_NAME)     # a new run after the restart
+    conn = store.connect(log_target)     # a new run after the restart
     calls.clear()
     monkeypatch.setattr(csvio, "_convert_chunk", lambda chunk: calls.append(len(chunk))
                         or real(chunk))
@@ -78,12 +81,12 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
     assert sum(1 for r in dump(conn) if r[2] == "corrected") == 6
 
 
-def test_saves_go_on_between_chunks(tmp_path, source, monkeypatch):
+def test_saves_go_on_between_chunks(source, monkeypatch, log_target):
+    from conftest import lock_wait
     monkeypatch.setattr(csvio, "IMPORT_CHUNK", 200)
-    path = tmp_path / store.DB_NAME
-    conn = store.connect(path)
-    other = store.connect(path, upgrade=False)
-    other.execute("PRAGMA busy_timeout = 200")       # a save that waits 200 ms fails
+    conn = store.connect(log_target)
+    other = store.connect(log_target, upgrade=False)
+    lock_wait(other, 200)                            # a save that waits 200 ms fails
     real, done = csvio._convert_chunk, []
 
     def convert_then_save(chunk):
@@ -99,10 +102,9 @@ def test_saves_go_on_between_chunks(tmp_path, source, monkeypatch):
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1006
 
 
-def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(tmp_path, source, monkeypatch):
+def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(source, monkeypatch, log_target):
     monkeypatch.setattr(csvio, "IMPORT_CHUNK", 500)
-    path = tmp_path / store.DB_NAME
-    conn = store.connect(path)
+    conn = store.connect(log_target)
     real = csvio._convert_chunk
 
     def meanwhile(chunk):
@@ -117,4 +119,4 @@ def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(tmp_path, source, 
         csvio.import_csv(conn, io.StringIO(source))
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1
     assert conn.execute("SELECT COUNT(*) FROM import_staging").fetchone()[0] == 0
-    assert isinstance(conn, sqlite3.Connection)
+    assert conn.execute("SELECT COUNT(*) FROM import_jobs").fetchone()[0] == 0   # job dropped

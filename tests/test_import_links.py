@@ -17,6 +17,10 @@ from hypothesis import strategies as st
 
 from fieldapp import create_app, csvio, store
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 BASE = {"sample": "paste", "unit": "dS/m", "compensated": True}
 
 

@@ -10,6 +10,10 @@ import pytest
 
 from fieldapp import store
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 
 def reading(site, minute, value="1.2", **kw):
     return {"uuid": str(uuidlib.uuid4()), "site": site, "sample": "water", "value": value,

@@ -12,6 +12,10 @@ import pytest
 
 from fieldapp import store
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 
 def make(client, **kw):
     r = client.post("/api/sites", json={"name": "Block 3", **kw})

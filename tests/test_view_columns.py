@@ -16,6 +16,10 @@ from fieldapp.records import build_record, save_reading
 
 from test_flag_rows import _log_at_schema, _plain_insert
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 MOIST = {"sample": "extract", "ratio": "1:5", "value": "0.5", "unit": "mS/cm", "temp_c": "20",
          "texture": "loam", "depth_cm": "15", "theta_g_pct": "22", "matric_MPa": "-0.1"}
 PASTE = {"sample": "paste", "value": "4.1", "unit": "dS/m", "compensated": True, "depth_cm": "45"}

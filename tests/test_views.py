@@ -9,6 +9,10 @@ import xml.etree.ElementTree as ET
 
 import pytest
 
+# Store, API and CSV behaviour: every test here runs on SQLite and on PostgreSQL
+# (conftest.py; the PostgreSQL half needs FIELDAPP_TEST_PG, set by tests/run.sh).
+BOTH_BACKENDS = True
+
 NS = {"s": "http://www.w3.org/2000/svg"}
 
 

@@ -72,9 +72,12 @@ class FieldappGroup(click.Group):
         except (InputError, StoreError) as e:
             code = _bad(e.message)
         except sqlite3.DatabaseError as e:     # one line, never a traceback, on a damaged log
-            code = _bad(f"the log could not be read or written ({e}). If it is damaged, export "
-                        "what can be read and restore a backup (python -m fieldapp restore "
-                        "--data DIR FILE).")
+            if hasattr(e, "sqlstate"):         # an office database on PostgreSQL (store/pg.py)
+                code = _bad(f"the office database refused the request or did not answer ({e}).")
+            else:
+                code = _bad(f"the log could not be read or written ({e}). If it is damaged, "
+                            "export what can be read and restore a backup (python -m fieldapp "
+                            "restore --data DIR FILE).")
         except KeyboardInterrupt:
             code = 130
         if standalone_mode:

@@ -8,7 +8,7 @@ import click
 
 from ..science import InputError
 from . import EXIT_BAD_INPUT, cli
-from .common import data_dir, data_option, open_log
+from .common import data_dir, data_option, db_url, open_log, sqlite_only
 
 
 @cli.command()
@@ -45,7 +45,8 @@ def serve(host, lan, port, data, demo, check_days, pairing_idle_days, threads, i
                                            check_days=check_days, threads=threads,
                                            pairing_idle_days=pairing_idle_days,
                                            idle_timeout=idle_timeout, dispatch=dispatch,
-                                           https_port=https_port, tls_name=list(tls_name)))
+                                           https_port=https_port, tls_name=list(tls_name),
+                                           db=db_url()))
 
 
 @cli.command()
@@ -58,8 +59,15 @@ def export(site, data, output, xlsx):
     """Write the log (or one site) as CSV, or as a workbook with --xlsx."""
     from pathlib import Path
 
-    from .. import csvio, store
-    from .common import site_or_fail
+    from .. import store
+    if db_url():
+        from ..store import pg
+        conn = pg.connect(db_url())       # export never writes: no migration
+        try:
+            pg.check_log(conn)
+            return _export(conn, site, output, xlsx)
+        finally:
+            conn.close()
     db_path = Path(data_dir(data)) / store.DB_NAME
     state = store.inspect_log(db_path)       # export never writes: open read-only
     if state["state"] == "new":
@@ -70,27 +78,34 @@ def export(site, data, output, xlsx):
         click.echo(f"fieldapp: {state['problem']}", err=True)
     conn = store.connect_readonly(db_path)
     try:
-        site_id = site_or_fail(conn, site)["id"] if site else None
-        if xlsx:                           # the workbook (readings, sites, sources)
-            from .. import xlsx as workbook
-            report: dict = {}
-            workbook.export_xlsx(conn, xlsx, site_id, report=report)
-            if report.get("skipped"):
-                click.echo(f"fieldapp: {report['skipped']} damaged row(s) could not be read "
-                           "and are missing from the export.", err=True)
-            return 0
-        out = open(output, "w", encoding="utf-8", newline="") if output else sys.stdout
-        try:
-            report: dict = {}
-            csvio.export(conn, out, site_id, report=report)
-            if report.get("skipped"):
-                click.echo(f"fieldapp: {report['skipped']} damaged row(s) could not be read "
-                           "and are missing from the export.", err=True)
-        finally:
-            if output:
-                out.close()
+        return _export(conn, site, output, xlsx)
     finally:
         conn.close()
+
+
+def _export(conn, site, output, xlsx) -> int:
+    """The export itself, from an open connection of either backend."""
+    from .. import csvio
+    from .common import site_or_fail
+    site_id = site_or_fail(conn, site)["id"] if site else None
+    if xlsx:                           # the workbook (readings, sites, sources)
+        from .. import xlsx as workbook
+        report: dict = {}
+        workbook.export_xlsx(conn, xlsx, site_id, report=report)
+        if report.get("skipped"):
+            click.echo(f"fieldapp: {report['skipped']} damaged row(s) could not be read "
+                       "and are missing from the export.", err=True)
+        return 0
+    out = open(output, "w", encoding="utf-8", newline="") if output else sys.stdout
+    try:
+        report: dict = {}
+        csvio.export(conn, out, site_id, report=report)
+        if report.get("skipped"):
+            click.echo(f"fieldapp: {report['skipped']} damaged row(s) could not be read "
+                       "and are missing from the export.", err=True)
+    finally:
+        if output:
+            out.close()
     return 0
 
 
@@ -125,6 +140,18 @@ def init_db(data):
 
     from .. import store
     from ..web.db import init_db as init
+    if db_url():
+        from ..store.pg import redact
+        before, now = init(db_url())
+        where = redact(db_url())
+        if before is None:
+            click.echo(f"fieldapp: new log in {where} (schema {now}).", err=True)
+        elif before == now:
+            click.echo(f"fieldapp: the log in {where} is up to date (schema {now}).", err=True)
+        else:
+            click.echo(f"fieldapp: the log in {where} went from schema {before} to {now}.",
+                       err=True)
+        return 0
     folder = Path(data_dir(data))
     folder.mkdir(parents=True, exist_ok=True)
     before, now = init(folder / store.DB_NAME)
@@ -162,6 +189,7 @@ def backup(output, data):
     """Copy the log safely, even while the server runs (OUTPUT: a new file, or a
     folder where a dated name is chosen)."""
     from .. import backup as backup_mod
+    sqlite_only("backup")
     return backup_mod.cmd_backup(_args(output=output, data=data))
 
 
@@ -171,6 +199,7 @@ def backup(output, data):
 def restore(file, data):
     """Bring back a backup; the current log is kept aside. Stop the server first."""
     from .. import backup as backup_mod
+    sqlite_only("restore")
     return backup_mod.cmd_restore(_args(file=file, data=data))
 
 

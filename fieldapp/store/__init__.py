@@ -1,6 +1,11 @@
 """The log's storage: schema, migrations, queries. The only package that speaks SQL.
 
-The database is one file in WAL mode with foreign keys on and
+One interface, two backends: a SQLite file (the default, no setup) or, for an
+office, a PostgreSQL database (``store.connect("postgresql://...")``, see
+``pg.py``). The SQL is written once where the dialects agree and per dialect
+(``store.dialect(conn)``) in the handful of statements where they differ.
+
+The SQLite database is one file in WAL mode with foreign keys on and
 ``synchronous=FULL``, so a save that was acknowledged survives a crash or a
 dead battery. Every write runs in an explicit transaction. Readings are
 append-only (triggers refuse UPDATE and DELETE); a correction is a new row
@@ -10,8 +15,10 @@ pointing at the one it replaces, a void is a row in ``voids``.
 # One interface for the rest of the program: every caller says ``store.name``;
 # the modules below hold one concern each.
 from .core import (COMPUTED_FIELDS, DB_NAME, INPUT_FIELDS, SITE_NAME_MAX, StoreError,
-                   VIEW_COLUMNS, connect, migrate, readings_insert_sql, transaction,
+                   VIEW_COLUMNS, DatabaseError, IntegrityError, OperationalError, connect,
+                   dialect, migrate, readings_insert_sql, schema_version, transaction,
                    utc_now, _migrations, _split_sql, _view_values_sql)  # noqa: F401
+from .pg import is_url as is_database_url  # noqa: F401
 from .sites import (SITE_EDITABLE, SITE_SETTINGS, change_site_settings, clean_site_name,
                     ensure_site, get_site, list_sites, open_flag_counts,
                     site_by_former_name, site_history, update_site)  # noqa: F401

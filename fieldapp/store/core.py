@@ -29,20 +29,37 @@ VIEW_COLUMNS = {
 }
 
 
-def _view_values_sql(result_json: str) -> str:
+def dialect(conn) -> str:
+    """"sqlite" or "postgresql": which form of a statement the connection takes."""
+    return getattr(conn, "dialect", "sqlite")
+
+
+def _view_values_sql(result_json: str, dialect: str = "sqlite") -> str:
     """The VIEW_COLUMNS values as SQL expressions over ``result_json`` (an
-    expression: a column or a bound parameter)."""
+    expression: a column or a bound parameter), in the connection's dialect."""
+    if dialect == "postgresql":
+        return ", ".join(f"(({result_json})::text::jsonb #>> '{{{p[2:].replace('.', ',')}}}')"
+                         "::double precision" for p in VIEW_COLUMNS.values())
     return ", ".join(f"json_extract({result_json}, '{p}')" for p in VIEW_COLUMNS.values())
 
 
-def readings_insert_sql(cols: tuple, extra_cols: str = "", extra_vals: str = "") -> str:
+def readings_insert_sql(cols: tuple, extra_cols: str = "", extra_vals: str = "",
+                        dialect: str = "sqlite") -> str:
     """INSERT INTO readings for these columns (``result_json`` among them) plus
     the VIEW_COLUMNS, computed in the same statement from the same JSON.
     Numbered parameters ?1..?n follow ``cols``; ``extra_vals`` may use ?n+1..."""
     params = ", ".join(f"?{i}" for i in range(1, len(cols) + 1))
     rj = f"?{cols.index('result_json') + 1}"
     return (f"INSERT INTO readings ({', '.join(cols)}, {', '.join(VIEW_COLUMNS)}{extra_cols}) "
-            f"VALUES ({params}, {_view_values_sql(rj)}{extra_vals})")
+            f"VALUES ({params}, {_view_values_sql(rj, dialect)}{extra_vals})")
+
+
+#: The store's database errors are the DB-API classes of sqlite3; the
+#: PostgreSQL adapter (store/pg.py) raises subclasses of them, so one
+#: ``except store.IntegrityError`` serves both backends.
+DatabaseError = sqlite3.DatabaseError
+IntegrityError = sqlite3.IntegrityError
+OperationalError = sqlite3.OperationalError
 
 
 class StoreError(Exception):
@@ -59,14 +76,37 @@ def utc_now() -> str:
     return dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
 
 
-def _migrations() -> list[tuple[int, str]]:
-    files = sorted(p for p in resources.files("fieldapp").joinpath("schema").iterdir()
-                   if p.name.endswith(".sql"))
-    return [(int(p.name.split("_", 1)[0]), p.read_text(encoding="utf-8")) for p in files]
+def _migrations(dialect: str = "sqlite") -> list[tuple[int, str]]:
+    """(version, SQL) of every schema file, oldest first. fieldapp/schema/
+    holds SQLite's; for PostgreSQL a file of the same name in
+    schema/postgresql/ takes its place where the two differ (a version with
+    no twin there is portable SQL, run as it is)."""
+    folder = resources.files("fieldapp").joinpath("schema")
+    files = sorted((p for p in folder.iterdir() if p.name.endswith(".sql")),
+                   key=lambda p: p.name)
+    out = []
+    for p in files:
+        if dialect == "postgresql":
+            twin = folder.joinpath("postgresql", p.name)
+            if twin.is_file():
+                p = twin
+        out.append((int(p.name.split("_", 1)[0]), p.read_text(encoding="utf-8")))
+    return out
+
+
+def schema_version(conn) -> int:
+    """The schema version of an open log (0 for a new one)."""
+    if dialect(conn) == "postgresql":
+        from . import pg
+        return pg.schema_version(conn)
+    return conn.execute("PRAGMA user_version").fetchone()[0]
 
 
 def connect(path: str | Path, upgrade: bool = True, check: bool = True) -> sqlite3.Connection:
     """Open (creating if needed) the database and bring its schema up to date.
+
+    ``path`` is the SQLite file, or a ``postgresql://`` URL (an office log on
+    PostgreSQL: the database must exist; its schema is made here).
 
     ``upgrade=False`` skips the checks and migrations (per-request connections
     of a server that already ran them at start-up).
@@ -75,6 +115,9 @@ def connect(path: str | Path, upgrade: bool = True, check: bool = True) -> sqlit
     program, raises StoreError and is left untouched.
     """
     from .rescue import inspect_log, unwritable_reason
+    from . import pg
+    if pg.is_url(path):
+        return pg.connect_log(path, upgrade=upgrade)
     path = Path(path)
     if upgrade and check and path.exists():
         state = inspect_log(path)            # an empty or damaged log is never written
@@ -139,6 +182,9 @@ def _check_version(conn: sqlite3.Connection) -> int:
 
 def migrate(conn: sqlite3.Connection) -> int:
     """Apply every schema file newer than the database's user_version."""
+    if dialect(conn) == "postgresql":
+        from . import pg
+        return pg.migrate(conn)
     current = _check_version(conn)
     known = _migrations()
     for version, sql in known:
@@ -183,7 +229,20 @@ class transaction:
 
     def __enter__(self):
         self.nested = self.conn.in_transaction
-        self.conn.execute("SAVEPOINT tx" if self.nested else "BEGIN IMMEDIATE")
+        if self.nested:
+            self.conn.execute("SAVEPOINT tx")
+        elif dialect(self.conn) == "postgresql":
+            # BEGIN IMMEDIATE's guarantee on PostgreSQL: one writer at a time,
+            # so a check made inside the transaction still holds at COMMIT.
+            from .pg import WRITE_LOCK
+            self.conn.execute("BEGIN")
+            try:
+                self.conn.execute("SELECT pg_advisory_xact_lock(?)", (WRITE_LOCK,))
+            except BaseException:
+                self.conn.execute("ROLLBACK")
+                raise
+        else:
+            self.conn.execute("BEGIN IMMEDIATE")
         return self.conn
 
     def __exit__(self, exc_type, exc, tb):
@@ -191,12 +250,18 @@ class transaction:
         # the transaction back; a second ROLLBACK would hide the real cause.
         if not self.conn.in_transaction:
             return False
-        if self.nested:
-            if exc_type:
-                self.conn.execute("ROLLBACK TO tx")
-            self.conn.execute("RELEASE tx")
-        else:
-            self.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+        try:
+            if self.nested:
+                if exc_type:
+                    self.conn.execute("ROLLBACK TO tx")
+                self.conn.execute("RELEASE tx")
+            else:
+                self.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+        except OperationalError:
+            # a dropped PostgreSQL connection cannot roll back (the server has
+            # already): the error that caused it is the one to report
+            if exc_type is None or dialect(self.conn) != "postgresql":
+                raise
         return False
 
 

@@ -5,7 +5,7 @@ import datetime as dt
 import sqlite3
 
 from .core import (COMPUTED_FIELDS, INPUT_FIELDS, VIEW_COLUMNS, StoreError,
-                   _view_values_sql, utc_now)
+                   _view_values_sql, dialect, utc_now)
 from .readings import _visit_id
 from .sites import ensure_site
 
@@ -26,10 +26,9 @@ def import_job(conn, digest: str, rows_total: int) -> dict:
     for (old,) in conn.execute("SELECT id FROM import_jobs WHERE started_at < ?",
                                (day_ago,)).fetchall():
         drop_import_job(conn, old)
-    cur = conn.execute("INSERT INTO import_jobs (digest, rows_total, started_at) VALUES "
-                       "(?,?,?)", (digest, rows_total, utc_now()))
-    return dict(conn.execute("SELECT * FROM import_jobs WHERE id = ?",
-                             (cur.lastrowid,)).fetchone())
+    new_id = conn.execute("INSERT INTO import_jobs (digest, rows_total, started_at) VALUES "
+                          "(?,?,?) RETURNING id", (digest, rows_total, utc_now())).fetchone()[0]
+    return dict(conn.execute("SELECT * FROM import_jobs WHERE id = ?", (new_id,)).fetchone())
 
 
 def stage_import_rows(conn, job_id: int, first_seq: int, rows) -> None:
@@ -44,8 +43,10 @@ def stage_import_rows(conn, job_id: int, first_seq: int, rows) -> None:
         v[cols.index("note")] = rec.get("note") or ""
         v[cols.index("flags")] = rec.get("flags") or ""
         vals.append(v)
-    conn.executemany(f"INSERT OR REPLACE INTO import_staging ({', '.join(cols)}) VALUES "
-                     f"({', '.join('?' * len(cols))})", vals)
+    # a chunk staged again (a run killed after staging it) replaces its rows
+    conn.executemany(f"INSERT INTO import_staging ({', '.join(cols)}) VALUES "
+                     f"({', '.join('?' * len(cols))}) ON CONFLICT (job_id, seq) DO UPDATE SET "
+                     + ", ".join(f"{c} = excluded.{c}" for c in cols[2:]), vals)
     conn.execute("UPDATE import_jobs SET rows_staged = ? WHERE id = ?",
                  (first_seq + len(vals), job_id))
 
@@ -77,7 +78,7 @@ def finish_import_job(conn, job_id: int) -> int:
     conn.execute("CREATE TEMP TABLE IF NOT EXISTS import_map (site TEXT, day TEXT, "
                  "visited_by TEXT, site_id INTEGER, visit_id INTEGER, "
                  "PRIMARY KEY (site, day, visited_by))")
-    conn.execute("DELETE FROM temp.import_map")
+    conn.execute("DELETE FROM import_map")   # the temporary table (searched first)
     site_ids: dict[str, int] = {}
     keys = conn.execute("SELECT DISTINCT site, substr(taken_at, 1, 10), visited_by "
                         "FROM import_staging WHERE job_id = ?", (job_id,)).fetchall()
@@ -85,7 +86,7 @@ def finish_import_job(conn, job_id: int) -> int:
         k = site.lower()
         if k not in site_ids:
             site_ids[k] = ensure_site(conn, site)["id"]
-        conn.execute("INSERT INTO temp.import_map VALUES (?,?,?,?,?)",
+        conn.execute("INSERT INTO import_map VALUES (?,?,?,?,?)",
                      (site, day, by, site_ids[k],
                       _visit_id(conn, site_ids[k], day, by)))
     cols = ", ".join(_STAGED)
@@ -101,8 +102,8 @@ def finish_import_job(conn, job_id: int) -> int:
                 f"{', '.join(VIEW_COLUMNS)}) "
                 f"SELECT {picked}, m.site_id, m.visit_id, "
                 "(SELECT p.id FROM readings p WHERE p.uuid = st.supersedes_uuid), "
-                f"{_view_values_sql('st.result_json')} "
-                "FROM import_staging st JOIN temp.import_map m ON m.site = st.site "
+                f"{_view_values_sql('st.result_json', dialect(conn))} "
+                "FROM import_staging st JOIN import_map m ON m.site = st.site "
                 "AND m.day = substr(st.taken_at, 1, 10) AND m.visited_by = st.visited_by "
                 "WHERE st.job_id = ? AND st.depth = ? ORDER BY st.seq",
                 (utc_now(), job_id, d))

@@ -50,15 +50,16 @@ def insert_meter(conn, m: dict) -> dict:
 
 def insert_calibration(conn, c: dict) -> dict:
     with transaction(conn):
-        cur = conn.execute(
+        new_id = conn.execute(
             "INSERT INTO calibrations (meter_id, standard, standard_uS_cm, value, unit, temp_c,"
             " compensated, expected_uS_cm, measured_uS_cm, deviation_pct, tolerance_pct, passed,"
-            " checked_at, note) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+            " checked_at, note) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?) RETURNING id",
             (c["meter_id"], c["standard"], c.get("standard_uS_cm"), c["value"], c["unit"],
              c.get("temp_c"), 1 if c.get("compensated") else 0, c["expected_uS_cm"],
              c["measured_uS_cm"], c["deviation_pct"], c["tolerance_pct"],
-             1 if c["passed"] else 0, c.get("checked_at") or utc_now(), c.get("note") or ""))
-        row = conn.execute("SELECT * FROM calibrations WHERE id = ?", (cur.lastrowid,)).fetchone()
+             1 if c["passed"] else 0, c.get("checked_at") or utc_now(),
+             c.get("note") or "")).fetchone()[0]
+        row = conn.execute("SELECT * FROM calibrations WHERE id = ?", (new_id,)).fetchone()
     return _cal_dict(row)
 
 

@@ -5,7 +5,7 @@ import json
 import sqlite3
 from typing import Iterator
 
-from .core import StoreError
+from .core import StoreError, dialect
 from .readings import _READING_SELECT, _reading_filters
 from .sites import list_sites
 
@@ -28,8 +28,8 @@ def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
         try:
             rows = conn.execute(sql, args).fetchall()
         except sqlite3.DatabaseError:
-            if not skip_damaged:
-                raise
+            if not skip_damaged or dialect(conn) == "postgresql":
+                raise          # PostgreSQL has no damaged pages to step over: report it
             if top is None:
                 try:
                     top = conn.execute("SELECT max(id) FROM readings").fetchone()[0] or 0

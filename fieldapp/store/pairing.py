@@ -21,9 +21,9 @@ def insert_pairing_code(conn, code: str, expires_at: str,
         if replace_active:
             conn.execute("UPDATE pairing_codes SET revoked_at = ? WHERE revoked_at IS NULL",
                          (now,))
-        cur = conn.execute("INSERT INTO pairing_codes (code, created_at, expires_at) "
-                           "VALUES (?,?,?)", (code, now, expires_at))
-    return conn.execute("SELECT * FROM pairing_codes WHERE id = ?", (cur.lastrowid,)).fetchone()
+        new_id = conn.execute("INSERT INTO pairing_codes (code, created_at, expires_at) "
+                              "VALUES (?,?,?) RETURNING id", (code, now, expires_at)).fetchone()[0]
+    return conn.execute("SELECT * FROM pairing_codes WHERE id = ?", (new_id,)).fetchone()
 
 
 def revoke_pairing_codes(conn, code_id: int | None = None) -> int:
@@ -42,12 +42,11 @@ def insert_device(conn, token_sha256: str, label: str, user_agent: str, address:
                   code_id: int | None) -> sqlite3.Row:
     now = utc_now()
     with transaction(conn):
-        cur = conn.execute(
+        new_id = conn.execute(
             "INSERT INTO paired_devices (token_sha256, label, user_agent, address, code_id, "
-            "paired_at, last_seen_at) VALUES (?,?,?,?,?,?,?)",
-            (token_sha256, label, user_agent, address, code_id, now, now))
-    return conn.execute("SELECT * FROM paired_devices WHERE id = ?",
-                        (cur.lastrowid,)).fetchone()
+            "paired_at, last_seen_at) VALUES (?,?,?,?,?,?,?) RETURNING id",
+            (token_sha256, label, user_agent, address, code_id, now, now)).fetchone()[0]
+    return conn.execute("SELECT * FROM paired_devices WHERE id = ?", (new_id,)).fetchone()
 
 
 def device_by_token(conn, token_sha256: str) -> sqlite3.Row | None:
@@ -70,8 +69,8 @@ def list_devices(conn) -> list[sqlite3.Row]:
 def note_reading_device(conn, reading_id: int, device_id: int) -> None:
     """Remember which paired tablet sent a new reading (schema/012_reading_devices.sql)."""
     with transaction(conn):
-        conn.execute("INSERT OR IGNORE INTO reading_devices (reading_id, device_id) "
-                     "VALUES (?, ?)", (reading_id, device_id))
+        conn.execute("INSERT INTO reading_devices (reading_id, device_id) "
+                     "VALUES (?, ?) ON CONFLICT DO NOTHING", (reading_id, device_id))
 
 
 def device_reading_counts(conn) -> dict[int, int]:

@@ -6,15 +6,15 @@ import json
 import sqlite3
 from typing import Iterator
 
-from .core import (COMPUTED_FIELDS, INPUT_FIELDS, VIEW_COLUMNS, StoreError,
+from .core import (COMPUTED_FIELDS, INPUT_FIELDS, VIEW_COLUMNS, StoreError, dialect,
                    readings_insert_sql, transaction, utc_now)
 from .sites import ensure_site, get_site
 
 
 def _visit_id(conn, site_id: int, taken_at: str, visited_by: str) -> int:
     day = taken_at[:10]
-    conn.execute("INSERT OR IGNORE INTO visits (site_id, visit_date, visited_by) VALUES (?,?,?)",
-                 (site_id, day, visited_by or ""))
+    conn.execute("INSERT INTO visits (site_id, visit_date, visited_by) VALUES (?,?,?) "
+                 "ON CONFLICT DO NOTHING", (site_id, day, visited_by or ""))
     return conn.execute("SELECT id FROM visits WHERE site_id=? AND visit_date=? AND visited_by=?",
                         (site_id, day, visited_by or "")).fetchone()[0]
 
@@ -87,7 +87,7 @@ def insert_reading(conn, rec: dict, site_attrs: dict | None = None,
         vals[cols.index("compensated")] = 1 if rec.get("compensated") else 0
         vals[cols.index("note")] = rec.get("note") or ""
         vals[cols.index("flags")] = rec.get("flags") or ""
-        conn.execute(readings_insert_sql(cols), vals)
+        conn.execute(readings_insert_sql(cols, dialect=dialect(conn)), vals)
         return (get_reading(conn, rec["uuid"]) if fetch else None), True
 
 
@@ -120,7 +120,8 @@ def insert_readings_bulk(conn, recs: list[dict]) -> int:
         rows.append(vals + [rec.get("supersedes_uuid")])
     try:
         conn.executemany(readings_insert_sql(cols, ", supersedes_id",
-                                     f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})"),
+                                     f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})",
+                                     dialect=dialect(conn)),
                          rows)
     except sqlite3.IntegrityError as e:
         raise StoreError(f"The file corrects one reading twice or repeats a reading ({e}).",
@@ -151,6 +152,11 @@ def void_reading(conn, uuid: str, reason: str, voided_at: str | None = None) -> 
 HISTORY_WINDOW = 50
 
 
+def _is_not(conn) -> str:
+    # NULL-safe "differs": SQLite's IS NOT (IS DISTINCT FROM only since 3.39)
+    return "IS DISTINCT FROM" if dialect(conn) == "postgresql" else "IS NOT"
+
+
 def history_values(conn, site_id: int, sample: str, depth_cm, exclude_uuid=None,
                    before: str | None = None) -> list[float]:
     """ECe (soil) or EC at 25 °C (other kinds) of the site's current readings of
@@ -158,7 +164,7 @@ def history_values(conn, site_id: int, sample: str, depth_cm, exclude_uuid=None,
     col = "ece_dS_m" if sample in ("paste", "extract") else "ec25_dS_m"
     sql = (f"SELECT r.{col} FROM readings r JOIN reading_status st ON st.id = r.id "
            "WHERE r.site_id = ? AND r.sample = ? AND st.status = 'current' "
-           f"AND r.{col} IS NOT NULL AND r.uuid IS NOT ? ")
+           f"AND r.{col} IS NOT NULL AND r.uuid {_is_not(conn)} ? ")
     args: list = [site_id, sample, exclude_uuid]
     if depth_cm is None:
         sql += "AND r.depth_cm IS NULL "
@@ -180,7 +186,8 @@ def replicate_values(conn, site_id: int, group: str, day: str, sample: str,
     rows = conn.execute(
         f"SELECT r.{col} FROM readings r JOIN reading_status st ON st.id = r.id "
         "WHERE r.site_id = ? AND r.replicate_group = ? AND substr(r.taken_at, 1, 10) = ? "
-        f"AND r.sample = ? AND st.status = 'current' AND r.uuid IS NOT ? AND r.{col} IS NOT NULL",
+        f"AND r.sample = ? AND st.status = 'current' AND r.uuid {_is_not(conn)} ? "
+        f"AND r.{col} IS NOT NULL",
         (site_id, group, day, sample, exclude_uuid)).fetchall()
     return [r[0] for r in rows]
 

@@ -5,6 +5,12 @@ closes it when the request ends; ``init_app(app)`` checks and migrates the log
 once at start (``open_log_at_start``) and installs both. ``init_db(path)``
 creates a log or brings its schema up to date, for ``fieldapp init-db``.
 SQL itself lives in ``fieldapp.store``; nothing here builds a query.
+
+An office server on PostgreSQL (config ``DB``: a ``postgresql://`` URL, from
+``serve --db``) holds a pool of connections (psycopg_pool): ``get_db`` takes
+one for the request and ``close_db`` gives it back. The SQLite-only rescue
+paths (read-only fallback, quick_check at start) are the database server's
+job there, not fieldapp's.
 """
 from __future__ import annotations
 
@@ -25,7 +31,9 @@ def get_db() -> sqlite3.Connection:
     while the server runs) falls back to a read-only one, so every page and
     the export keep working for rescue; a save then answers 503."""
     if "db" not in g:
-        if request.method in ("GET", "HEAD") or current_app.config.get("LOG_READ_ONLY"):
+        if _pool(current_app) is not None:
+            g.db = _pool(current_app).connection()
+        elif request.method in ("GET", "HEAD") or current_app.config.get("LOG_READ_ONLY"):
             g.db = open_read_connection()
         else:
             g.db = store.connect(current_app.config["DATABASE"], upgrade=False)
@@ -36,6 +44,8 @@ def open_read_connection() -> sqlite3.Connection:
     """A connection for reading: the normal one when it can read, else one that
     cannot write (a damaged log, a read-only folder, a full disk). The caller
     closes it (a streamed export keeps its own past the request's teardown)."""
+    if _pool(current_app) is not None:
+        return _pool(current_app).connection()
     path = current_app.config["DATABASE"]
     if current_app.config.get("LOG_READ_ONLY"):
         return store.connect_readonly(path)
@@ -53,7 +63,26 @@ def open_read_connection() -> sqlite3.Connection:
 def close_db(exc=None):
     db = g.pop("db", None)
     if db is not None:
-        db.close()
+        db.close()                  # a pool's connection goes back to the pool
+
+
+def _pool(app):
+    return app.extensions.get("fieldapp_pool")
+
+
+def open_connection(app):
+    """A connection outside a request (start-up work such as the pairing
+    code); the caller closes it."""
+    if _pool(app) is not None:
+        return _pool(app).connection()
+    return store.connect(app.config["DATABASE"], upgrade=False)
+
+
+def close_pool(app) -> None:
+    """Close the office server's pool (tests, shutdown); a no-op on SQLite."""
+    pool = app.extensions.pop("fieldapp_pool", None)
+    if pool is not None:
+        pool.close()
 
 
 def open_log_at_start(db_path: str) -> str | None:
@@ -94,7 +123,16 @@ def init_db(db_path: str | Path) -> tuple[int | None, int]:
 
     Returns (the schema version before, or None for a new log; the version
     now). An empty, damaged, foreign or newer file raises StoreError and is
-    left untouched (``store.connect`` checks it before anything writes)."""
+    left untouched (``store.connect`` checks it before anything writes).
+    ``db_path`` may be a ``postgresql://`` URL (the database must exist)."""
+    if store.is_database_url(db_path):
+        from ..store import pg
+        conn = pg.connect(db_path)
+        try:
+            before = pg.check_log(conn) or None
+            return before, pg.migrate(conn)
+        finally:
+            conn.close()
     path = Path(db_path)
     state = store.inspect_log(path)
     if state["state"] in ("refused", "damaged"):
@@ -128,7 +166,28 @@ def init_app(app) -> None:
     """Open the log in ``DATA_DIR`` (made if missing), check and migrate it
     (``LOG_READ_ONLY`` says why writes are refused, or None), close each
     request's connection at teardown, refuse writes to a read-only log (503)
-    and name its problem to every page (``log_problem``)."""
+    and name its problem to every page (``log_problem``).
+
+    With config ``DB`` (a ``postgresql://`` URL) the log is that database:
+    checked and migrated here, then served through a connection pool
+    (``POOL_SIZE`` connections at most)."""
+    url = app.config.get("DB")
+    if url and store.is_database_url(str(url)):
+        from ..store import pg
+        store.connect(url).close()                         # check and migrate now, fail early
+        app.config["DATABASE"] = url
+        app.config["DB_DIALECT"] = pg.DIALECT
+        app.config["LOG_READ_ONLY"] = None
+        app.extensions["fieldapp_pool"] = pg.Pool(
+            url, min_size=1, max_size=int(app.config.get("POOL_SIZE", 12)))
+        app.teardown_appcontext(close_db)
+        app.before_request(_refuse_writes_when_read_only)
+        app.context_processor(_log_problem)
+        return
+    if url:
+        raise store.StoreError(f"--db takes a postgresql://USER@HOST:PORT/DATABASE URL, not "
+                               f"{url!r} (a SQLite log is chosen with --data DIR).", "db")
+    app.config["DB_DIALECT"] = "sqlite"
     data_dir = Path(app.config["DATA_DIR"])
     data_dir.mkdir(parents=True, exist_ok=True)
     app.config["DATABASE"] = str(data_dir / store.DB_NAME)

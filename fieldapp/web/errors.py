@@ -22,8 +22,8 @@ def _wants_json() -> bool:
 
 def damaged(e):
     """Part of the log cannot be read: serve it read-only from now on, and say so."""
-    if isinstance(e, sqlite3.OperationalError):
-        return db_error(e)
+    if isinstance(e, sqlite3.OperationalError) or _on_postgresql():
+        return db_error(e)          # PostgreSQL keeps its own pages: no file to rescue
     current_app.logger.exception("damaged log")
     problem = (f"Part of the log cannot be read ({e}): the file is damaged. Nothing more "
                "is written to it. " + store._restore_hint(
@@ -32,6 +32,10 @@ def damaged(e):
     if _wants_json():
         return jsonify(error=problem, field=None, read_only=True), 503
     return render_template("error.html", message=problem), 503
+
+
+def _on_postgresql() -> bool:
+    return current_app.config.get("DB_DIALECT") == "postgresql"
 
 
 def input_error(e):
@@ -46,6 +50,9 @@ def db_error(e):
     """The log could not be written: say why (read-only folder, full disk) and
     that the tablet keeps the reading."""
     current_app.logger.exception("database error")
+    if _on_postgresql():
+        return jsonify(error="The office database did not answer or refused the change; "
+                             "your reading is kept and will be sent again.", field=None), 503
     msg, cause = str(e), e.__context__
     while cause is not None:     # a failed ROLLBACK hides the error that caused it
         msg, cause = msg + " " + str(cause), cause.__context__

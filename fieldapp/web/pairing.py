@@ -105,7 +105,8 @@ def start_lan(app, host: str, port: int) -> list[str]:
     https_port = app.config.get("HTTPS_PORT")     # set by tls.start_https, if running
     secure = [f"https://{a}:{https_port}" for a in addrs] if https_port else []
     app.config["LAN_HTTPS_URLS"] = secure
-    conn = store.connect(app.config["DATABASE"], upgrade=False)
+    from .db import open_connection
+    conn = open_connection(app)
     try:
         code = current_code(conn, create=True)
     finally:
