@@ -197,7 +197,8 @@ def test_an_unreachable_office_database_is_one_clear_line(tmp_path):
 def test_the_command_line_opens_an_office_log_with_db(pg_db, tmp_path):
     run = CliRunner().invoke
     r = run(cli, ["init-db", "--db", pg_db])
-    assert r.exit_code == 0 and "up to date (schema 15)" in r.output
+    newest = max(v for v, _ in store._migrations())
+    assert r.exit_code == 0 and f"up to date (schema {newest})" in r.output
     r = run(cli, ["sites", "add", "Block 3", "--crop", "tomato", "--db", pg_db])
     assert r.exit_code == 0, r.output
     r = run(cli, ["sites", "list", "--db", pg_db, "--json"])
