@@ -783,12 +783,28 @@ def review_pairs(conn, site_id: int | None = None) -> list[dict]:
     return out
 
 
+def device_names(conn) -> dict[str, str]:
+    """log uuid -> the name its device goes by now (its latest pairing; this
+    log's own name for itself)."""
+    out = {r[0]: r[1] for r in conn.execute(
+        "SELECT log_uuid, name FROM office_devices WHERE name <> '' ORDER BY id")}
+    me, name = get_setting(conn, LOG_UUID), get_setting(conn, DEVICE_NAME)
+    if me and name:
+        out.setdefault(me, name)
+    return out
+
+
+def _name(names: dict, log: str | None, stored: str | None) -> str:
+    return names.get(log or "", "") or (stored or "")
+
+
 def sites_across_devices(conn) -> list[dict]:
     """Every site with its reading count, latest current reading and who
     (person, device) sent its newest reading."""
     from .sites import list_sites
-    last = {r[0]: (r[1], r[2], r[3]) for r in conn.execute(
-        "SELECT r.site_id, o.person, o.device_name, r.recorded_at FROM readings r "
+    names = device_names(conn)
+    last = {r[0]: (r[1], _name(names, r[4], r[2]), r[3]) for r in conn.execute(
+        "SELECT r.site_id, o.person, o.device_name, r.recorded_at, o.log_uuid FROM readings r "
         "LEFT JOIN reading_origin o ON o.reading_id = r.id "
         "WHERE r.id IN (SELECT MAX(id) FROM readings GROUP BY site_id)")}
     out = []
@@ -806,6 +822,7 @@ def scout_activity(conn) -> list[dict]:
     seen = {}
     for d in conn.execute("SELECT log_uuid, MAX(last_seen_at) FROM office_devices GROUP BY log_uuid"):
         seen[d[0]] = d[1]
+    names = device_names(conn)
     out = []
     for r in conn.execute(
             "SELECT o.person, o.log_uuid, MAX(o.device_name) AS device_name, COUNT(*) AS n, "
@@ -813,6 +830,7 @@ def scout_activity(conn) -> list[dict]:
             "JOIN readings r ON r.id = o.reading_id GROUP BY o.person, o.log_uuid "
             "ORDER BY MAX(r.taken_at) DESC"):
         d = dict(r)
+        d["device_name"] = _name(names, r["log_uuid"], r["device_name"])
         d["last_seen_at"] = seen.get(r["log_uuid"])
         out.append(d)
     return out
@@ -828,12 +846,16 @@ def site_readings_by(conn, site_id: int, person: str | None = None, log: str | N
     if log:
         where.append("o.log_uuid = ?")
         args.append(log)
-    return [dict(r) for r in conn.execute(
+    names = device_names(conn)
+    rows = [dict(r) for r in conn.execute(
         "SELECT r.uuid, r.taken_at, r.sample, r.value, r.unit, r.ec25_dS_m, r.ece_dS_m, "
         "r.flags, st.status, o.person, o.device_name, o.log_uuid FROM readings r "
         "JOIN reading_status st ON st.id = r.id LEFT JOIN reading_origin o "
         "ON o.reading_id = r.id WHERE " + " AND ".join(where) +
         " ORDER BY r.taken_at DESC, r.id DESC LIMIT ?", args + [limit])]
+    for r in rows:
+        r["device_name"] = _name(names, r["log_uuid"], r["device_name"])
+    return rows
 
 
 def people_and_devices(conn, site_id: int) -> tuple[list[str], list[tuple[str, str]]]:
@@ -841,10 +863,11 @@ def people_and_devices(conn, site_id: int) -> tuple[list[str], list[tuple[str, s
     people = [r[0] for r in conn.execute(
         "SELECT DISTINCT o.person FROM reading_origin o JOIN readings r ON r.id = o.reading_id "
         "WHERE r.site_id = ? AND o.person IS NOT NULL ORDER BY o.person", (site_id,))]
-    devices = [(r[0], r[1]) for r in conn.execute(
+    names = device_names(conn)
+    devices = sorted(((r[0], _name(names, r[0], r[1])) for r in conn.execute(
         "SELECT o.log_uuid, MAX(o.device_name) FROM reading_origin o JOIN readings r "
-        "ON r.id = o.reading_id WHERE r.site_id = ? GROUP BY o.log_uuid ORDER BY 2",
-        (site_id,))]
+        "ON r.id = o.reading_id WHERE r.site_id = ? GROUP BY o.log_uuid", (site_id,))),
+        key=lambda x: x[1])
     return people, devices
 
 
