@@ -72,7 +72,9 @@ def clean_person(text) -> str:
 def note_reading_origin(conn, reading_id: int, person: str | None = None) -> None:
     """Remember that this log took a new reading, and who did (``person``, or
     the person set for this log), inside the caller's transaction."""
-    who = clean_person(person) if person else (get_setting(conn, PERSON) or None)
+    # a visit's "visited by" may be longer than a person's name here: shortened, never refused
+    who = " ".join(str(person).split())[:PERSON_MAX] if person else None
+    who = who or get_setting(conn, PERSON) or None
     conn.execute("INSERT INTO reading_origin (reading_id, log_uuid, device_name, person) "
                  "VALUES (?, ?, ?, ?) ON CONFLICT (reading_id) DO NOTHING",
                  (reading_id, log_uuid(conn), get_setting(conn, DEVICE_NAME) or "", who))

@@ -199,6 +199,7 @@ def office_activity():
 @bp.post("/office/code")
 def office_new_code():
     _laptop_only()
+    json_body()                  # a JSON object, as every change takes (web/security.py)
     code = new_code(get_db())
     return jsonify(code=format_code(code["code"]), expires_at=code["expires_at"]), 201
 
@@ -206,6 +207,7 @@ def office_new_code():
 @bp.post("/office/devices/<int:device_id>/revoke")
 def office_revoke(device_id):
     _laptop_only()
+    json_body()
     return jsonify(revoked=store.revoke_office_device(get_db(), device_id))
 
 
@@ -325,12 +327,19 @@ def send_settings():
     """Who takes the readings on this device, and its name at the office."""
     body = json_body()
     db = get_db()
+    changes = {}
     for key, setting in (("person", store.sync.PERSON), ("name", store.sync.DEVICE_NAME)):
         if key in body:
             v = body[key]
             if v is not None and not isinstance(v, str):
                 return _refuse(400, f"{key} must be text.", key)
-            store.set_setting(db, setting, store.clean_person(v) or None)
+            try:
+                changes[setting] = store.clean_person(v) or None
+            except store.StoreError as e:
+                return _refuse(400, e.message, key)
+    with store.transaction(db):          # both names or neither
+        for setting, v in changes.items():
+            store.set_setting(db, setting, v)
     return jsonify(_send_state())
 
 
@@ -350,6 +359,7 @@ def send_follow():
 
 @bp.post("/api/send/start")
 def send_start():
+    json_body()
     db = get_db()
     st = syncmod.settings(db)
     if not st["paired"]:
