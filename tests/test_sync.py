@@ -245,6 +245,8 @@ def test_two_devices_correct_the_same_reading(office_app, office_db, devices):
     sid = store.get_site(office_db, "Block 3")["id"]
     page = office_app.test_client().get(f"/office/sites/{sid}").get_data(as_text=True)
     assert "Corrections to review" in page and orig in page
+    log_page = office_app.test_client().get(f"/sites/{sid}").get_data(as_text=True)
+    assert 'id="review-mark"' in log_page and "corrected on two devices" in log_page
 
 
 def test_site_settings_take_the_latest_change_and_keep_history(office_app, office_db, devices,
