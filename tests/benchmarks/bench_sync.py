@@ -39,9 +39,9 @@ from fieldapp import sync as syncmod              # noqa: E402
 from fieldapp.web.pairing import format_code, new_code   # noqa: E402
 
 
-def invented_records(n: int, seed: int) -> list[dict]:
+def invented_records(n: int, offset: int) -> list[dict]:
     payloads = [{"site": f"Block {1 + (i % 5)}", "sample": "water",
-                 "value": f"{0.5 + ((i * 37 + seed) % 300) / 100:.2f}", "unit": "dS/m",
+                 "value": f"{0.5 + ((i * 37 + offset) % 300) / 100:.2f}", "unit": "dS/m",
                  "temp_c": f"{18 + (i % 10)}", "uuid": str(uuid.uuid4()),
                  "taken_at": f"2030-05-{1 + (i % 28):02d}T09:{i % 60:02d}:00+00:00"}
                 for i in range(n)]
@@ -49,10 +49,10 @@ def invented_records(n: int, seed: int) -> list[dict]:
     return [records.build_record(p, result=r) for p, r in zip(payloads, results)]
 
 
-def make_device(folder: Path, n: int, seed: int):
+def make_device(folder: Path, n: int, offset: int):
     folder.mkdir(parents=True)
     conn = store.connect(folder / store.DB_NAME)
-    recs = invented_records(n, seed)
+    recs = invented_records(n, offset)
     with store.transaction(conn):
         store.insert_readings_bulk(conn, recs)
     return conn, recs
