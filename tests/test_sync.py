@@ -3,8 +3,9 @@ store/sync.py), in-process: the office is a Flask app and each device talks
 to it through the office's test client; a transport can drop the
 connection before or after the office handles a request.
 
-Fixtures: ``office_app`` is the one place the office's log is made, so the
-lead can parametrize it over sqlite and postgresql later."""
+The office runs on both backends (``BOTH_BACKENDS``: its log is a SQLite
+file or a fresh PostgreSQL database); devices are laptops and tablets, always
+on their own SQLite file."""
 from __future__ import annotations
 
 import json
@@ -14,7 +15,10 @@ from click.testing import CliRunner
 
 from fieldapp import create_app, records, store
 from fieldapp import sync as syncmod
+from fieldapp.web.db import close_pool
 from fieldapp.web.pairing import format_code, new_code
+
+BOTH_BACKENDS = True
 
 
 class ClientTransport:
@@ -45,9 +49,14 @@ class ClientTransport:
 
 
 @pytest.fixture
-def office_app(tmp_path):
-    """The office: the same application on its own log."""
-    return create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "office")})
+def office_app(tmp_path, backend, request):
+    """The office: the same application on its own log (SQLite or PostgreSQL)."""
+    config = {"TESTING": True, "DATA_DIR": str(tmp_path / "office")}
+    if backend == "postgresql":
+        config["DB"] = request.getfixturevalue("pg_db")
+    a = create_app(config)
+    yield a
+    close_pool(a)
 
 
 @pytest.fixture

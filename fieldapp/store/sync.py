@@ -16,7 +16,7 @@ import re
 import uuid as uuidlib
 
 from .core import (COMPUTED_FIELDS, INPUT_FIELDS, SITE_NAME_MAX, StoreError,
-                   readings_insert_sql, transaction, utc_now)
+                   dialect, readings_insert_sql, transaction, utc_now)
 from .sites import SITE_SETTINGS, _history_text, clean_site_name, get_site
 
 # ---------------------------------------------------------------- settings
@@ -599,7 +599,8 @@ def apply_readings(conn, sites: dict, readings: list, default_origin: dict | Non
                 review.append((d["uuid"], sup))
         rows.append(vals + [link])
     conn.executemany(readings_insert_sql(cols, ", supersedes_id",
-                                         f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})"),
+                                         f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})",
+                                         dialect=dialect(conn)),
                      rows)
     new_ids = _uuid_ids(conn, [d["uuid"] for d in fresh])
     now = utc_now()
