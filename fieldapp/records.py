@@ -292,6 +292,8 @@ def save_reading(conn, payload: dict, max_age_days: float = DEFAULT_MAX_AGE_DAYS
     confirmed = _confirmed_codes(payload, rec)
     with store.transaction(conn):   # the reading and "saved anyway" notes, together
         row, created = store.insert_reading(conn, rec)
+        if created:     # this log took it, and who did (schema 017): sync carries both
+            store.note_reading_origin(conn, row["id"], rec.get("visited_by") or None)
         if created and device_id is not None:
             store.note_reading_device(conn, row["id"], device_id)
         if created and confirmed:

@@ -7,6 +7,7 @@
     fieldapp void UUID --reason "..." ; correct UUID --value 1.3 ; ack UUID CODE --note "..."
     fieldapp meters list | add | show ; calibrate METER VALUE UNIT ; targets list | set | delete
     fieldapp export | import | backup | restore | demo | serve | init-db | bench
+    fieldapp sync [URL --code CODE] [--follow SITE] ; office code | devices
 
 Every command goes through the functions the web API calls (records, store,
 meters, sites, interpret), never a second implementation. Listing commands
@@ -51,6 +52,7 @@ class FieldappGroup(click.Group):
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True,
              **extra):
         from ..store import StoreError
+        from ..sync import SyncError
         try:
             rv = super().main(args, prog_name=prog_name or "fieldapp",
                               complete_var=complete_var, standalone_mode=False, **extra)
@@ -71,6 +73,9 @@ class FieldappGroup(click.Group):
             code = 130
         except (InputError, StoreError) as e:
             code = _bad(e.message)
+        except SyncError as e:          # refused or cut off: nothing confirmed is lost
+            _bad(e.message)
+            code = 1
         except sqlite3.DatabaseError as e:     # one line, never a traceback, on a damaged log
             if hasattr(e, "sqlstate"):         # an office database on PostgreSQL (store/pg.py)
                 code = _bad(f"the office database refused the request or did not answer ({e}).")
@@ -93,7 +98,7 @@ def cli():
 
 
 def _register() -> None:
-    from . import convert, data, log, meters   # noqa: F401 - each adds its commands
+    from . import convert, data, log, meters, sync   # noqa: F401 - each adds its commands
 
 
 _register()

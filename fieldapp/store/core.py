@@ -43,11 +43,13 @@ def _view_values_sql(result_json: str, dialect: str = "sqlite") -> str:
     return ", ".join(f"json_extract({result_json}, '{p}')" for p in VIEW_COLUMNS.values())
 
 
-def readings_insert_sql(cols: tuple, extra_cols: str = "", extra_vals: str = "",
-                        dialect: str = "sqlite") -> str:
+def readings_insert_sql(cols: tuple, extra_cols: str = "", extra_vals: str = "", *,
+                        dialect: str) -> str:
     """INSERT INTO readings for these columns (``result_json`` among them) plus
     the VIEW_COLUMNS, computed in the same statement from the same JSON.
-    Numbered parameters ?1..?n follow ``cols``; ``extra_vals`` may use ?n+1..."""
+    Numbered parameters ?1..?n follow ``cols``; ``extra_vals`` may use ?n+1...
+    ``dialect`` (``store.dialect(conn)``) has no default: the JSON extraction
+    differs between SQLite and PostgreSQL."""
     params = ", ".join(f"?{i}" for i in range(1, len(cols) + 1))
     rj = f"?{cols.index('result_json') + 1}"
     return (f"INSERT INTO readings ({', '.join(cols)}, {', '.join(VIEW_COLUMNS)}{extra_cols}) "

@@ -39,8 +39,9 @@ def init_app(app) -> None:
     /api/preview, /api/readings, the downloads), sites (the sites list, a
     site's log and settings, /api/sites), meters (/meters, /api/meters,
     /api/calibrations) and views (a site's summary, its report, the map,
-    /api/targets)."""
-    from . import db, errors, meters, pairing, readings, security, sites, views
+    /api/targets), and office (sync: /api/sync/* at the office, /office, and
+    /send on a device)."""
+    from . import db, errors, meters, office, pairing, readings, security, sites, views
     db.init_app(app)
     register_filters(app)
     errors.register(app)
@@ -48,3 +49,4 @@ def init_app(app) -> None:
     pairing.init_app(app)
     for module in (readings, sites, meters, views):
         app.register_blueprint(module.bp)
+    office.init_app(app)      # sync with an office: /api/sync (office), /send (device)

@@ -85,6 +85,7 @@ def site_log(site_id):
             old = store.get_reading(db, prev)
             r["previous"] = store.reading_dict(old) if old is not None else None
     return render_template("site.html", site=site, readings=readings, cautions=CAUTIONS,
+                           review=store.review_pairs(db, site_id),   # two corrections (sync)
                            kind_label=sitecfg.kind_label,
                            saved=request.args.get("saved") == "1",
                            summary=site_view(db, site),     # summary and charts at the top

@@ -142,7 +142,7 @@ def _insert_plain(conn, rows) -> float:
                 "compensated": 1 if r.get("compensated") else 0,
                 "note": r.get("note") or "", "flags": r.get("flags") or ""}
         tuples.append(tuple(vals.get(c) for c in _COLS))
-    sql = store.readings_insert_sql(_COLS)      # the view columns (schema 015) from the same JSON
+    sql = store.readings_insert_sql(_COLS, dialect="sqlite")  # the view columns (schema 015) from the same JSON
     t0 = time.perf_counter()
     conn.execute("BEGIN IMMEDIATE")
     conn.executemany(sql, tuples)
