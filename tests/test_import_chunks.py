@@ -43,10 +43,10 @@ def dump(conn):
 
 
 def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, monkeypatch):
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 150)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 150)
     (tmp_path / "a").mkdir()
     conn = store.connect(tmp_path / "a" / store.DB_NAME)
-    real, calls = csvio._convert_chunk, []
+    real, calls = csvio.importing._convert_chunk, []
 
     def killed_after_three(chunk):
         if len(calls) == 3:
@@ -54,7 +54,7 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
         calls.append(len(chunk))
         return real(chunk)
 
-    monkeypatch.setattr(csvio, "_convert_chunk", killed_after_three)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", killed_after_three)
     with pytest.raises(KeyboardInterrupt):
         csvio.import_csv(conn, io.StringIO(source))
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 0
@@ -64,7 +64,7 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
 
     conn = store.connect(tmp_path / "a" / store.DB_NAME)     # a new run after the restart
     calls.clear()
-    monkeypatch.setattr(csvio, "_convert_chunk", lambda chunk: calls.append(len(chunk))
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", lambda chunk: calls.append(len(chunk))
                         or real(chunk))
     counts = csvio.import_csv(conn, io.StringIO(source))
     assert counts["added"] == 1006
@@ -79,12 +79,12 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
 
 
 def test_saves_go_on_between_chunks(tmp_path, source, monkeypatch):
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 200)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 200)
     path = tmp_path / store.DB_NAME
     conn = store.connect(path)
     other = store.connect(path, upgrade=False)
     other.execute("PRAGMA busy_timeout = 200")       # a save that waits 200 ms fails
-    real, done = csvio._convert_chunk, []
+    real, done = csvio.importing._convert_chunk, []
 
     def convert_then_save(chunk):
         with store.transaction(other):
@@ -93,17 +93,17 @@ def test_saves_go_on_between_chunks(tmp_path, source, monkeypatch):
         done.append(1)
         return real(chunk)
 
-    monkeypatch.setattr(csvio, "_convert_chunk", convert_then_save)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", convert_then_save)
     csvio.import_csv(conn, io.StringIO(source))
     assert len(done) == 6
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1006
 
 
 def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(tmp_path, source, monkeypatch):
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 500)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 500)
     path = tmp_path / store.DB_NAME
     conn = store.connect(path)
-    real = csvio._convert_chunk
+    real = csvio.importing._convert_chunk
 
     def meanwhile(chunk):
         out = real(chunk)
@@ -112,7 +112,7 @@ def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(tmp_path, source, 
             store.insert_reading(conn, rec, fetch=False)
         return out
 
-    monkeypatch.setattr(csvio, "_convert_chunk", meanwhile)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", meanwhile)
     with pytest.raises(csvio.ImportError_, match="changed while"):
         csvio.import_csv(conn, io.StringIO(source))
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1
