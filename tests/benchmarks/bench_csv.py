@@ -9,8 +9,9 @@ readings over 40 sites) into ``--cache`` (default: a folder in the system's
 temporary directory) and reused by path on later runs; so are the CSV files.
 
 Every figure comes from a fresh child process: the time of the job inside
-it, and its peak resident memory (``ru_maxrss`` from ``os.wait4``), so the
-figure and its floor carry the same interpreter overhead.
+it (convert-csv and its floor: from process start), and its peak resident
+memory (VmHWM), so the figure and its floor carry the same interpreter
+overhead.
 
 - export: ``csvio.export`` of the whole log (to a sink that keeps nothing)
   beside a bare ``sqlite3`` query written with ``csv.writer`` (the same rows
@@ -42,8 +43,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(HERE))
-if sys.argv[1:3] != ["_child", "csv_pass"]:     # the bare pass loads nothing of fieldapp
-    import bench  # noqa: E402  (tests/benchmarks/bench.py)
+if sys.argv[1:3] not in (["_child", "csv_pass"], ["_child", "convert_cli"]):
+    import bench  # noqa: E402  (tests/benchmarks/bench.py); convert-csv and its floor load nothing more
 
 # ---------------------------------------------------------------- the cache
 
@@ -171,11 +172,35 @@ def job_csv_pass(src, dst):
         csv.writer(out, lineterminator="\r\n").writerows(csv.reader(f))
 
 
+def job_convert_cli(src):
+    """``python -m fieldapp convert-csv SRC`` as a user runs it (stdout is the
+    file the parent opened)."""
+    import runpy
+    sys.argv = ["fieldapp", "convert-csv", src]
+    try:
+        runpy.run_module("fieldapp", run_name="__main__", alter_sys=True)
+    except SystemExit as e:
+        if e.code:
+            raise
+
+
+def _vm_hwm_kib() -> int:
+    """This process's peak resident memory since exec (Linux); ru_maxrss would
+    carry the parent's from before the exec."""
+    with open("/proc/self/status") as f:
+        for line in f:
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1])
+    return 0
+
+
 def _child_main(argv) -> int:
     t0 = time.perf_counter()
     inner = globals()["job_" + argv[0]](*argv[1:])
-    print(json.dumps({"s": time.perf_counter() - t0,
-                      "inner_s": inner if isinstance(inner, float) else None}))
+    got = {"s": time.perf_counter() - t0, "rss_kib": _vm_hwm_kib(),
+           "inner_s": inner if isinstance(inner, float) else None}
+    with open(os.environ["BENCH_CSV_RESULT"], "w") as f:
+        json.dump(got, f)
     return 0
 
 
@@ -183,37 +208,26 @@ def _env():
     return bench._env()
 
 
-def _reap(proc):
-    _, status, usage = os.wait4(proc.pid, 0)
-    proc.returncode = os.waitstatus_to_exitcode(status)
-    return usage.ru_maxrss
-
-
-def _child(*args) -> dict:
-    """Run one job in a fresh interpreter: its inner time and peak RSS."""
-    proc = subprocess.Popen([sys.executable, str(Path(__file__)), "_child", *args],
-                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=_env())
-    out = proc.stdout.read()
-    err = proc.stderr.read()
-    rss = _reap(proc)
-    if proc.returncode != 0:
-        raise RuntimeError(f"{args[0]} failed:\n{err.decode()[-3000:]}")
-    got = json.loads(out.decode().strip().splitlines()[-1])
-    got["rss_kib"] = rss
-    return got
-
-
-def _wall(cmd, stdout_path) -> dict:
-    """Run a command from process start, stdout to a file: wall time, peak RSS."""
-    with open(stdout_path, "wb") as out:
+def _child(*args, stdout=None) -> dict:
+    """Run one job in a fresh interpreter (stdout to the file ``stdout``):
+    the wall time from process start, the job's inner time, its peak RSS."""
+    fd, result = tempfile.mkstemp(prefix="bench-csv-", suffix=".json")
+    os.close(fd)
+    env = dict(_env(), BENCH_CSV_RESULT=result)
+    with open(stdout or os.devnull, "wb") as out:
         t0 = time.perf_counter()
-        proc = subprocess.Popen(cmd, stdout=out, stderr=subprocess.PIPE, env=_env())
-        err = proc.stderr.read()
-        rss = _reap(proc)
+        proc = subprocess.run([sys.executable, str(Path(__file__)), "_child", *args],
+                              stdout=out, stderr=subprocess.PIPE, env=env)
         wall = time.perf_counter() - t0
-    if proc.returncode != 0:
-        raise RuntimeError(f"{cmd} failed:\n{err.decode()[-3000:]}")
-    return {"s": wall, "rss_kib": rss}
+    try:
+        if proc.returncode != 0:
+            raise RuntimeError(f"{args[0]} failed:\n{proc.stderr.decode()[-3000:]}")
+        with open(result) as f:
+            got = json.load(f)
+    finally:
+        os.unlink(result)
+    got["wall_s"] = wall
+    return got
 
 
 # ---------------------------------------------------------------- the figures
@@ -264,14 +278,18 @@ def bench_import(cache, n, small_n, work: Path):
 def bench_convert(cache, n, small_n, work: Path):
     src = cached_convert_input(cache, n)
     small_src = cached_convert_input(cache, small_n)
-    ours = [sys.executable, "-m", "fieldapp", "convert-csv"]
-    bare = [sys.executable, str(Path(__file__)), "_child", "csv_pass"]
-    _wall(ours + [str(small_src)], work / "warm.csv")
-    core = min((_wall(ours + [str(src)], work / "out.csv") for _ in range(2)),
-               key=lambda r: r["s"])
-    floor = min((_wall(bare + [str(src), str(work / "bare.csv")], os.devnull)
-                 for _ in range(2)), key=lambda r: r["s"])
-    s_core = _wall(ours + [str(small_src)], work / "small.csv")
+    def ours(path, out):
+        r = _child("convert_cli", str(path), stdout=out)
+        return {**r, "s": r["wall_s"]}          # from process start, as a user waits
+
+    def bare():
+        r = _child("csv_pass", str(src), str(work / "bare.csv"))
+        return {**r, "s": r["wall_s"]}
+
+    ours(small_src, work / "warm.csv")
+    core = min((ours(src, work / "out.csv") for _ in range(2)), key=lambda r: r["s"])
+    floor = min((bare() for _ in range(2)), key=lambda r: r["s"])
+    s_core = ours(small_src, work / "small.csv")
     print(f"convert-csv of {n:,} rows ({src.stat().st_size / 1e6:.0f} MB; floor: bare "
           "csv.reader -> csv.writer, both from process start)")
     _print("fieldapp convert-csv", core, floor, "3x", s_core, small_n)
