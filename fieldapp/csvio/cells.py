@@ -33,6 +33,8 @@ def _invisible(c: str) -> bool:
 
 
 def _formula_like(s: str) -> bool:
+    if s[:1].isalnum() and s[:1].isascii():     # the usual first character: visible
+        return False
     for c in s:                     # stops at the first visible character
         if c in _FORMULA_FIRST:
             return True
@@ -46,6 +48,9 @@ def _formula_like(s: str) -> bool:
 #: 007 -> 7, 1e5 -> 1.00E+05, 2026-08-03 -> a date. Checked with LibreOffice
 #: Calc 7 (en-US import); only digits, separators and an am/pm or exponent.
 _CONVERTIBLE_RE = re.compile(r"[\s\d:/.,%-]*\d[\s\d:/.,%-]*(?:[eE][+-]?\d+)?\s*(?:[aApP]\.?[mM]\.?)?\s*")
+#: A character _CONVERTIBLE_RE never matches: text holding one (a uuid's
+#: letters, the T of a timestamp) is not scanned by it at all.
+_NOT_CONVERTIBLE_RE = re.compile(r"[^\s\d:/.,%\-+eEaApPmM]")
 #: Number text a spreadsheet keeps as it was typed.
 _PLAIN_DECIMAL_RE = re.compile(r"(?:0|[1-9]\d{0,14})(?:\.\d*[1-9])?")
 
@@ -53,7 +58,7 @@ _PLAIN_DECIMAL_RE = re.compile(r"(?:0|[1-9]\d{0,14})(?:\.\d*[1-9])?")
 def _spreadsheet_converts(s: str) -> bool:
     """True for text a spreadsheet would read as a number, date or time and so
     write back in another form (the ratio 1:5 becoming the time 01:05)."""
-    if len(s) > 60 or not _CONVERTIBLE_RE.fullmatch(s):
+    if len(s) > 60 or _NOT_CONVERTIBLE_RE.search(s) or not _CONVERTIBLE_RE.fullmatch(s):
         return False
     return not _PLAIN_DECIMAL_RE.fullmatch(s)
 
@@ -73,6 +78,9 @@ def neutralize(text) -> str:
     if text is None:
         return ""
     s = str(text)
+    c = s[:1]
+    if c.isalnum() and c.isascii() and _NOT_CONVERTIBLE_RE.search(s):
+        return s        # a visible first character, and a text no spreadsheet converts
     return "'" + s if _needs_prefix(s) else s
 
 
@@ -158,10 +166,20 @@ class ReadableCells:
         except (TypeError, ValueError):
             return None
 
+    def local_text(self, taken_at) -> str:
+        """taken_at's wall-clock time as a spreadsheet reads a date-time
+        (2026-05-14 09:30:00), empty if unreadable."""
+        t = self.local_time(taken_at)
+        if t is None:
+            return ""
+        s = str(taken_at)
+        if len(s) == 25 and s[10] == "T" and s[19] in "+-" and s[0] != "0":   # as stored
+            return s[:10] + " " + s[11:19]
+        return t.strftime("%Y-%m-%d %H:%M:%S")
+
     def __call__(self, row) -> list[str]:
         n, text = self.ratio(row["ratio"])
-        t = self.local_time(row["taken_at"])
-        return [plain_number(n), text, t.strftime("%Y-%m-%d %H:%M:%S") if t else "",
+        return [plain_number(n), text, self.local_text(row["taken_at"]),
                 neutralize(self.label("flags", row["flags"])),
                 neutralize(self.label("method_label", row["ece_method"])),
                 neutralize(self.label("route_label", row["psi_s_method"])),
