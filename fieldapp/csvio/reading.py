@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import csv
-import io
 import re
 from typing import IO, Iterator
 
@@ -85,60 +84,67 @@ def _check_text_cells(r: dict, line: int) -> None:
                            "readings only.", "void_reason")
 
 
+#: A line of the file as csv.reader reads it from a file opened with
+#: newline="": ended by CRLF, LF or CR (CSV cells may hold other line breaks).
+_LINE_RE = re.compile(r"[^\r\n]*(?:\r\n|\r|\n)|[^\r\n]+$")
+
+
+def _lines(text: str, start: int) -> Iterator[str]:
+    """The lines of ``text`` from ``start`` on, without copying the text."""
+    return (m.group() for m in _LINE_RE.finditer(text, start))
+
+
 def read_export(src: IO[str]) -> list[dict]:
     """Parse and check a whole export file; raise ImportError_ on the first bad line.
     Every cell gets the API's validation (the reading's own fields are checked
     again when it is built); the links between rows are checked later, once
-    every row is read, by :func:`import_rows`."""
+    every row is read, by :func:`import_rows`. The text is read once and its
+    lines are walked in place; each row's cells are dropped once checked."""
     text = src.read()
-    if text.startswith(BOM):
-        text = text[1:]
-    reader = csv.reader(io.StringIO(text, newline=""))
+    reader = csv.reader(_lines(text, 1 if text.startswith(BOM) else 0))
     try:
         header = next(reader)
     except StopIteration:
         raise ImportError_("The file is empty; choose a fieldapp log export.", "file") from None
     except csv.Error as e:
         raise ImportError_(f"This is not a CSV file ({e}).", "file") from None
-    header, reader = _after_spreadsheet(header, reader)
+    header, body = _after_spreadsheet(header, reader)
+    del text
     missing = [c for c in COLUMNS if c not in header]
     if missing:
         raise ImportError_("This is not a fieldapp log export: missing columns "
                            + ", ".join(missing[:6]) + (" …" if len(missing) > 6 else "")
                            + ". Nothing was imported.", "file")
-    idx = {c: header.index(c) for c in COLUMNS}
+    idx = [(c, header.index(c), c in NUMERIC) for c in COLUMNS]
     rows = []
-    try:
-        for line, cells in enumerate(reader, start=2):
-            if not cells or cells == [""]:
-                continue
-            if len(cells) != len(header):
-                raise ImportError_(f"line {line}: {len(cells)} cells, the header has "
-                                   f"{len(header)}. Nothing was imported.", "file")
-            r = {}
-            for c in COLUMNS:
-                cell = cells[idx[c]]
-                r[c] = _num(cell, line, c) if c in NUMERIC else unneutralize(cell)
-            if r["value"] is None or not r["unit"] or not r["uuid"] or not r["site"]:
-                raise ImportError_(f"line {line}: site, value, unit and uuid are required.",
-                                   "file")
-            if r["compensated"] not in ("yes", "no"):
-                raise ImportError_(f"line {line}: compensated must be yes or no.", "file")
-            if r["status"] not in ("current", "corrected", "void"):
-                raise ImportError_(f"line {line}: unknown status {r['status'][:40]!r}.",
-                                   "file")
-            for c in ("voided_at", "recorded_at"):
-                r[c] = _timestamp(r[c], line, c)
-            _check_text_cells(r, line)
-            r["_line"] = line
-            rows.append(r)
-    except csv.Error as e:
-        raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
-                           "file") from None
+    for k, cells in enumerate(body):
+        body[k] = None                  # the cells go as their row is made
+        if cells and cells != [""]:
+            rows.append(_row(cells, idx, len(header), k + 2))
     return rows
 
 
-def _after_spreadsheet(header: list[str], reader) -> tuple[list[str], Iterator[list[str]]]:
+def _row(cells: list[str], idx, width: int, line: int) -> dict:
+    """One row of the file, every cell checked."""
+    if len(cells) != width:
+        raise ImportError_(f"line {line}: {len(cells)} cells, the header has "
+                           f"{width}. Nothing was imported.", "file")
+    r = {c: _num(cells[i], line, c) if numeric else unneutralize(cells[i])
+         for c, i, numeric in idx}
+    if r["value"] is None or not r["unit"] or not r["uuid"] or not r["site"]:
+        raise ImportError_(f"line {line}: site, value, unit and uuid are required.", "file")
+    if r["compensated"] not in ("yes", "no"):
+        raise ImportError_(f"line {line}: compensated must be yes or no.", "file")
+    if r["status"] not in ("current", "corrected", "void"):
+        raise ImportError_(f"line {line}: unknown status {r['status'][:40]!r}.", "file")
+    for c in ("voided_at", "recorded_at"):
+        r[c] = _timestamp(r[c], line, c)
+    _check_text_cells(r, line)
+    r["_line"] = line
+    return r
+
+
+def _after_spreadsheet(header: list[str], reader) -> tuple[list[str], list[list[str]]]:
     """The header and rows with what a spreadsheet did on open and save undone
     (:func:`fieldapp.roundtrip.restore`), or refused naming the columns that
     can no longer be trusted."""
@@ -152,4 +158,4 @@ def _after_spreadsheet(header: list[str], reader) -> tuple[list[str], Iterator[l
         header, body = roundtrip.restore(header, body, NUMERIC)
     except roundtrip.Untrusted as e:
         raise ImportError_(f"{e} Nothing was imported.", e.columns[0]) from None
-    return header, iter(body)
+    return header, body
