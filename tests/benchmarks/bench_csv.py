@@ -44,7 +44,7 @@ ROOT = HERE.parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(HERE))
 if sys.argv[1:3] not in (["_child", "csv_pass"], ["_child", "convert_cli"]):
-    import bench  # noqa: E402  (tests/benchmarks/bench.py); convert-csv and its floor load nothing more
+    import bench  # noqa: E402  (tests/benchmarks/bench.py; not loaded by the convert-csv jobs)
 
 # ---------------------------------------------------------------- the cache
 
