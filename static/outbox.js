@@ -192,7 +192,14 @@
   window.addEventListener("online", flush);
   setInterval(flush, RETRY_MS);
   document.addEventListener("DOMContentLoaded", function () { notify(); flush(); });
-  if ("serviceWorker" in navigator && window.isSecureContext) {
+  // The service worker (offline reloads) is registered once the page has
+  // loaded: its install fetches every page file, which would otherwise
+  // compete with the first visit for a slow tablet's CPU.
+  function registerWorker() {
     navigator.serviceWorker.register("/sw.js").catch(function () { /* offline reload unavailable */ });
+  }
+  if ("serviceWorker" in navigator && window.isSecureContext) {
+    if (document.readyState === "complete") registerWorker();
+    else window.addEventListener("load", registerWorker);
   }
 })();

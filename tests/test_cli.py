@@ -152,6 +152,43 @@ def test_convert_csv_bad_row_names_the_line(tmp_path):
     refused(run("convert-csv", src), "line 4")
 
 
+@pytest.mark.parametrize("cell", ["1_0", "1e999", "nan", "0x10"])
+def test_convert_csv_reads_a_value_by_the_api_rule(tmp_path, cell):
+    """A value column of plain decimals is read in one numpy call; a cell the
+    API's parse_number refuses (underscores, overflow to infinity, words) is
+    refused here too, naming its line, not read by float()'s looser rule."""
+    src = tmp_path / "in.csv"
+    src.write_text(f"value,unit\n1,dS/m\n{cell},dS/m\n2.5,dS/m\n", encoding="utf-8")
+    refused(run("convert-csv", src), "line 3")
+
+
+def test_convert_csv_writes_the_cells_as_the_csv_module_does(tmp_path):
+    """The output lines are joined a column at a time; Python's csv module
+    (the reference) must read back every input cell unchanged: commas, quotes,
+    line breaks, a short row's missing cells (empty) and a long row's extras
+    (dropped), blank lines skipped, and the header."""
+    notes = ["plain", "a, b", 'say "hi"', "two\nlines", "", " padded ", "=1+1"]
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\r\n")
+    w.writerow(["note", "value", "unit", "site"])
+    for i, note in enumerate(notes * 20):
+        w.writerow([note, f"{0.5 + i / 100:.2f}", "dS/m", "Farm A, Block 3"])
+    text = buf.getvalue() + "\r\nx,1.5,dS/m\r\ny,2.5,dS/m,Block 4,extra\r\n"
+    src = tmp_path / "in.csv"
+    src.write_text(text, encoding="utf-8", newline="")
+    out = ok("convert-csv", src).stdout
+    got = list(csv.reader(io.StringIO(out, newline="")))
+    assert got[0][:4] == ["note", "value", "unit", "site"] and "ec25_dS_m" in got[0]
+    want = [r for r in csv.reader(io.StringIO(text, newline="")) if r][1:]
+    assert len(got) - 1 == len(want) == len(notes) * 20 + 2
+    for g, row in zip(got[1:], want[:-2]):
+        assert g[:4] == row and len(g) == len(got[0])
+    assert got[-2][:4] == ["x", "1.5", "dS/m", ""]       # a short row: an empty cell
+    assert got[-1][:4] == ["y", "2.5", "dS/m", "Block 4"] and "extra" not in got[-1]
+    ec25 = got[0].index("ec25_dS_m")
+    assert float(got[1][ec25]) == pytest.approx(0.5)    # a compensated-free 25 °C paste
+
+
 # ------------------------------------------------------------------ export, import
 
 def test_export_and_import_from_the_command_line(tmp_path, log):

@@ -187,3 +187,24 @@ def test_a_note_typed_with_an_apostrophe_survives_export_and_import(client, tmp_
     assert store.get_reading(conn, a["uuid"])["note"] == "'=1+1"
     assert store.get_reading(conn, b["uuid"])["note"] == "'plain"
     conn.close()
+
+
+@pytest.mark.parametrize("ending", ["\r\n", "\n", "\r"])
+def test_import_reads_lines_as_the_csv_module_does(client, tmp_path, ending):
+    """The import walks the file's lines in place: ended by CRLF, LF or CR as
+    Python's csv module reads a file opened with newline="" (the reference),
+    while a note's own line breaks, including ones str.splitlines would split
+    at (U+2028, NEL, form feed), stay inside its cell."""
+    notes = ["two\nlines", "sep\u2028arated", "next\x85line", "page\x0cbreak", "plain"]
+    made = [add(client, value=f"{2 + i / 10:.1f}", note=n) for i, n in enumerate(notes)]
+    text = export_text(client)
+    rows = list(csv.reader(io.StringIO(text[1:], newline="")))
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator=ending, quoting=csv.QUOTE_ALL).writerows(rows)
+    other = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "other")})
+    conn = store.connect(other.config["DATABASE"])
+    counts = csvio.import_csv(conn, io.StringIO("\ufeff" + buf.getvalue(), newline=""))
+    assert counts["added"] == len(notes)
+    for rec, note in zip(made, notes):
+        assert store.get_reading(conn, rec["uuid"])["note"] == note
+    conn.close()

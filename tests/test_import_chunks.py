@@ -47,9 +47,9 @@ def dump(conn):
 
 def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, monkeypatch,
                                                             log_target):
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 150)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 150)
     conn = store.connect(log_target)
-    real, calls = csvio._convert_chunk, []
+    real, calls = csvio.importing._convert_chunk, []
 
     def killed_after_three(chunk):
         if len(calls) == 3:
@@ -57,7 +57,7 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
         calls.append(len(chunk))
         return real(chunk)
 
-    monkeypatch.setattr(csvio, "_convert_chunk", killed_after_three)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", killed_after_three)
     with pytest.raises(KeyboardInterrupt):
         csvio.import_csv(conn, io.StringIO(source))
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 0
@@ -67,7 +67,7 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
 
     conn = store.connect(log_target)     # a new run after the restart
     calls.clear()
-    monkeypatch.setattr(csvio, "_convert_chunk", lambda chunk: calls.append(len(chunk))
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", lambda chunk: calls.append(len(chunk))
                         or real(chunk))
     counts = csvio.import_csv(conn, io.StringIO(source))
     assert counts["added"] == 1006
@@ -83,11 +83,11 @@ def test_killed_import_adds_nothing_and_the_next_run_resumes(tmp_path, source, m
 
 def test_saves_go_on_between_chunks(source, monkeypatch, log_target):
     from conftest import lock_wait
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 200)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 200)
     conn = store.connect(log_target)
     other = store.connect(log_target, upgrade=False)
     lock_wait(other, 200)                            # a save that waits 200 ms fails
-    real, done = csvio._convert_chunk, []
+    real, done = csvio.importing._convert_chunk, []
 
     def convert_then_save(chunk):
         with store.transaction(other):
@@ -96,16 +96,16 @@ def test_saves_go_on_between_chunks(source, monkeypatch, log_target):
         done.append(1)
         return real(chunk)
 
-    monkeypatch.setattr(csvio, "_convert_chunk", convert_then_save)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", convert_then_save)
     csvio.import_csv(conn, io.StringIO(source))
     assert len(done) == 6
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1006
 
 
 def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(source, monkeypatch, log_target):
-    monkeypatch.setattr(csvio, "IMPORT_CHUNK", 500)
+    monkeypatch.setattr(csvio.importing, "IMPORT_CHUNK", 500)
     conn = store.connect(log_target)
-    real = csvio._convert_chunk
+    real = csvio.importing._convert_chunk
 
     def meanwhile(chunk):
         out = real(chunk)
@@ -114,7 +114,7 @@ def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(source, monkeypatc
             store.insert_reading(conn, rec, fetch=False)
         return out
 
-    monkeypatch.setattr(csvio, "_convert_chunk", meanwhile)
+    monkeypatch.setattr(csvio.importing, "_convert_chunk", meanwhile)
     with pytest.raises(csvio.ImportError_, match="changed while"):
         csvio.import_csv(conn, io.StringIO(source))
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1

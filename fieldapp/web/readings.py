@@ -6,12 +6,16 @@ from __future__ import annotations
 from flask import (Blueprint, Response, current_app, g, jsonify, render_template, request,
                    send_from_directory, stream_with_context)
 
-from .. import csvio, labels, records, store
+from .. import labels, store
 from .. import sites as sitecfg
 from ..science import extracts, osmotic, tolerance, units
 from ..results import CAUTIONS
+from . import Later
 from .db import get_db, open_read_connection
 from .helpers import api_date, json_body, max_age_days, paged
+
+csvio = Later("fieldapp.csvio")
+records = Later("fieldapp.records")
 
 bp = Blueprint("readings", __name__)
 

@@ -12,11 +12,15 @@ import datetime as dt
 from flask import Blueprint, abort, jsonify, render_template, request, url_for
 from markupsafe import Markup
 
-from .. import charts, interpret, meters, store
+from .. import meters, store
 from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
+from . import Later
 from .db import get_db
 from .helpers import max_age_days, site_by_id
+
+charts = Later("fieldapp.charts")
+interpret = Later("fieldapp.interpret")
 
 bp = Blueprint("views", __name__)
 

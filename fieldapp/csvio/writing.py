@@ -1,0 +1,129 @@
+"""Export: the log as CSV text, streamed piece by piece."""
+from __future__ import annotations
+
+import csv
+import io
+import sqlite3
+from itertools import islice
+from typing import IO, Iterator
+
+from .. import store
+from .cells import (ReadableCells, _acks_cell, _version_cell, _yes_no, neutralize,
+                    plain_number)
+from .columns import BOM, COLUMNS, EXPORT_COLUMNS, NUMERIC
+
+
+def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
+                 report: dict | None = None) -> Iterator[str]:
+    """Yield the CSV text piece by piece: BOM + header, then a few hundred rows
+    at a time. The cells are made a column at a time, each distinct value of a
+    column once (:class:`_Memo`). Rows are read in keyset batches; on a
+    damaged log every readable row comes out and ``report["skipped"]`` counts
+    the ids that could not be read."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\r\n")
+    w.writerow(EXPORT_COLUMNS)
+    yield BOM + buf.getvalue()
+    try:
+        acked = store.acked_reading_ids(conn)
+    except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
+        acked = set()
+    columns = _Columns(conn, acked)
+    rows = store.iter_readings_keyset(conn, site_id=site_id, report=report)
+    while True:
+        piece = list(islice(rows, rows_per_piece))
+        if not piece:
+            return
+        buf.seek(0)
+        buf.truncate()
+        w.writerows(zip(*columns(piece)))
+        yield buf.getvalue()
+
+
+class _Memo:
+    """``f`` once per distinct value of a column, remembering at most
+    ``limit`` values (a column of unique texts keeps memory flat); a column
+    whose values are mostly new (uuids, times) is just mapped."""
+
+    def __init__(self, f, limit: int = 4096, text_only: bool = False):
+        self.f, self.limit, self.text_only = f, limit, text_only
+        self.seen: dict = {}
+        self.direct = False
+
+    def __call__(self, col) -> list:
+        if self.direct:
+            return list(map(self.f, col))
+        seen = self.seen
+        new = set(col).difference(seen)
+        if len(new) * 2 > len(col) > 100:
+            self.direct, self.seen = True, {}
+            return list(map(self.f, col))
+        if self.text_only and any(v is not None and type(v) is not str for v in new):
+            return list(map(self.f, col))   # 1 and 1.0 would share a key
+        if len(seen) + len(new) > self.limit:
+            seen.clear()
+            new = set(col)
+        for v in new:
+            seen[v] = self.f(v)
+        return list(map(seen.__getitem__, col))
+
+
+class _Columns:
+    """The export's columns, in :data:`EXPORT_COLUMNS` order, for a piece of
+    stored rows (sqlite3.Row, the columns of store's reading query)."""
+
+    def __init__(self, conn, acked: set):
+        self.conn, self.acked = conn, acked
+        self.readable = ReadableCells()
+        self.cells = {c: _Memo(plain_number) if c in NUMERIC else
+                      _Memo(_yes_no) if c == "compensated" else
+                      _Memo(_version_cell, text_only=True) if c == "app_version" else
+                      _Memo(neutralize, text_only=True)
+                      for c in COLUMNS if c != "flag_acks"}     # built from its own rows
+        r = self.readable
+        self.ratio = _Memo(r.ratio)
+        self.local = r.local_text                   # a time is seldom repeated
+        self.labels = {k: _Memo(lambda v, k=k: neutralize(r.label(k, v)))
+                       for k in ("flags", "method_label", "route_label", "sample_label")}
+        self.pos = None
+
+    def _acks(self, ids) -> list[str]:
+        return [neutralize(_acks_cell(_acks_or_none(self.conn, rid))) if rid in self.acked
+                else "" for rid in ids]
+
+    def _salt_types(self, piece, values) -> list[str]:
+        """The water type; a reading stored before schema 016 keeps it in its
+        result JSON (``store.stored_salt_type``)."""
+        return [neutralize(v) if v else neutralize(store.stored_salt_type(row) or "")
+                for v, row in zip(values, piece)]
+
+    def __call__(self, piece) -> list[list]:
+        if self.pos is None:
+            self.pos = {k: i for i, k in enumerate(piece[0].keys())}
+        by_pos = list(zip(*piece))
+        col = {k: by_pos[i] for k, i in self.pos.items()}
+        out = [self._acks(col["id"]) if c == "flag_acks" else
+               self._salt_types(piece, col[c]) if c == "salt_type" else self.cells[c](col[c])
+               for c in COLUMNS]
+        ratios = self.ratio(col["ratio"])
+        out.append([plain_number(n) for n, _ in ratios])
+        out.append([text for _, text in ratios])
+        out.append(list(map(self.local, col["taken_at"])))
+        out.append(self.labels["flags"](col["flags"]))
+        out.append(self.labels["method_label"](col["ece_method"]))
+        out.append(self.labels["route_label"](col["psi_s_method"]))
+        out.append(self.labels["sample_label"](col["sample"]))
+        return out
+
+
+def _acks_or_none(conn, rid: int) -> list[dict]:
+    try:
+        return store.acks_for_readings(conn, [rid])[rid]
+    except sqlite3.DatabaseError:
+        return []
+
+
+def export(conn, out: IO[str], site_id: int | None = None,
+           report: dict | None = None) -> None:
+    for piece in export_lines(conn, site_id, report=report):
+        out.write(piece)
