@@ -30,24 +30,24 @@ def _uuid_ids(conn, uuids) -> dict[str, int]:
     return out
 
 
-def apply_readings(conn, sites: dict, readings: list, default_origin: dict | None = None
-                   ) -> dict:
-    """New readings by uuid (a uuid here already is a resend: nothing
-    changes; one that names another reading is refused item by item and
-    reported). A correction of a version that another correction replaced
-    already (two devices corrected the same reading) is kept without its
-    supersedes link and marked for review with the version it was made to
-    correct. Returns counts, the uuids refused and the new readings' ids."""
-    checked = [_check_reading_item(d, i) for i, d in enumerate(readings or [])]
-    have = _uuid_ids(conn, [d["uuid"] for d in checked])
+def _stored_briefs(conn, uuids) -> dict:
+    """uuid -> (uuid, value, unit, site name) of readings stored here."""
+    uuids = list(uuids)
     brief = {}
-    if have:
-        for k in range(0, len(have), 500):
-            part = list(have)[k:k + 500]
-            for r in conn.execute(
-                    "SELECT r.uuid, r.value, r.unit, s.name FROM readings r JOIN sites s "
-                    f"ON s.id = r.site_id WHERE r.uuid IN ({','.join('?' * len(part))})", part):
-                brief[r[0]] = r
+    for k in range(0, len(uuids), 500):
+        part = uuids[k:k + 500]
+        for r in conn.execute(
+                "SELECT r.uuid, r.value, r.unit, s.name FROM readings r JOIN sites s "
+                f"ON s.id = r.site_id WHERE r.uuid IN ({','.join('?' * len(part))})", part):
+            brief[r[0]] = r
+    return brief
+
+
+def _sort_fresh(conn, checked: list) -> tuple[list, int, list]:
+    """(the readings new here, how many are resends, the uuids refused: a
+    uuid stored here already whose value or unit differs)."""
+    have = _uuid_ids(conn, [d["uuid"] for d in checked])
+    brief = _stored_briefs(conn, have) if have else {}
     fresh, refused, seen = [], [], set()
     dup = 0
     for d in checked:
@@ -63,9 +63,12 @@ def apply_readings(conn, sites: dict, readings: list, default_origin: dict | Non
             continue
         seen.add(d["uuid"])
         fresh.append(d)
-    if not fresh:
-        return {"new": 0, "duplicate": dup, "refused": refused, "review": 0, "ids": []}
-    # which corrections find their target still current
+    return fresh, dup, refused
+
+
+def _targets_taken(conn, fresh: list) -> tuple[dict, set]:
+    """The versions the corrections name (uuid -> id here), and the ids of
+    those another correction here replaces already."""
     targets = {d["supersedes_uuid"] for d in fresh if d.get("supersedes_uuid")}
     target_ids = _uuid_ids(conn, targets)
     taken = set()
@@ -75,20 +78,36 @@ def apply_readings(conn, sites: dict, readings: list, default_origin: dict | Non
         taken.update(r[0] for r in conn.execute(
             f"SELECT supersedes_id FROM readings WHERE supersedes_id IN "
             f"({','.join('?' * len(part))})", part))
+    return target_ids, taken
+
+
+#: Columns of the readings INSERT, in order (supersedes_id follows by uuid).
+_INSERT_COLS = ("site_id", "visit_id") + READING_ITEM_FIELDS
+
+
+def _row_values(d: dict, site_id: int, visit_id: int) -> list:
+    cols = _INSERT_COLS
+    vals = [site_id, visit_id] + [d.get(c) for c in READING_ITEM_FIELDS]
+    vals[cols.index("compensated")] = 1 if d.get("compensated") else 0
+    vals[cols.index("note")] = d.get("note") or ""
+    vals[cols.index("flags")] = d.get("flags") or ""
+    vals[cols.index("app_version")] = d.get("app_version") or "unknown"
+    vals[cols.index("recorded_at")] = d.get("recorded_at") or utc_now()
+    return vals
+
+
+def _insert_rows(conn, sites: dict, fresh: list) -> list:
+    """Insert the new readings; a correction is linked to the version it
+    corrects only while that version is still current (here or earlier in
+    the batch). Returns (uuid, supersedes uuid) of those kept for review."""
+    target_ids, taken = _targets_taken(conn, fresh)
     by_uuid_in_batch = {d["uuid"] for d in fresh}
     claimed: set[str] = set()
-    cols = ("site_id", "visit_id") + READING_ITEM_FIELDS
     rows, review = [], []
     visits: dict = {}
     for d in fresh:
         sid = _site_id(conn, sites, clean_site_name(d["site"]))
         vid = _visit_id(conn, visits, sid, d["taken_at"], d.get("visited_by") or "")
-        vals = [sid, vid] + [d.get(c) for c in READING_ITEM_FIELDS]
-        vals[cols.index("compensated")] = 1 if d.get("compensated") else 0
-        vals[cols.index("note")] = d.get("note") or ""
-        vals[cols.index("flags")] = d.get("flags") or ""
-        vals[cols.index("app_version")] = d.get("app_version") or "unknown"
-        vals[cols.index("recorded_at")] = d.get("recorded_at") or utc_now()
         sup = d.get("supersedes_uuid")
         link = None
         if sup:
@@ -100,16 +119,17 @@ def apply_readings(conn, sites: dict, readings: list, default_origin: dict | Non
                 claimed.add(sup)
             else:
                 review.append((d["uuid"], sup))
-        rows.append(vals + [link])
-    conn.executemany(readings_insert_sql(cols, ", supersedes_id",
-                                         f", (SELECT id FROM readings WHERE uuid = ?{len(cols) + 1})",
+        rows.append(_row_values(d, sid, vid) + [link])
+    n = len(_INSERT_COLS)
+    conn.executemany(readings_insert_sql(_INSERT_COLS, ", supersedes_id",
+                                         f", (SELECT id FROM readings WHERE uuid = ?{n + 1})",
                                          dialect=dialect(conn)),
                      rows)
-    new_ids = _uuid_ids(conn, [d["uuid"] for d in fresh])
-    now = utc_now()
-    conn.executemany("INSERT INTO reading_review (reading_id, supersedes_uuid, noted_at) "
-                     "VALUES (?, ?, ?) ON CONFLICT (reading_id) DO NOTHING",
-                     [(new_ids[u], s, now) for u, s in review])
+    return review
+
+
+def _insert_origins(conn, fresh: list, new_ids: dict, default_origin: dict | None) -> None:
+    """Who took each new reading: the item's origin, else ``default_origin``."""
     origins = []
     for d in fresh:
         o = d.get("origin") or default_origin
@@ -119,6 +139,27 @@ def apply_readings(conn, sites: dict, readings: list, default_origin: dict | Non
                             (str(o["person"])[:PERSON_MAX] if o.get("person") else None)))
     conn.executemany("INSERT INTO reading_origin (reading_id, log_uuid, device_name, person) "
                      "VALUES (?, ?, ?, ?) ON CONFLICT (reading_id) DO NOTHING", origins)
+
+
+def apply_readings(conn, sites: dict, readings: list, default_origin: dict | None = None
+                   ) -> dict:
+    """New readings by uuid (a uuid here already is a resend: nothing
+    changes; one that names another reading is refused item by item and
+    reported). A correction of a version that another correction replaced
+    already (two devices corrected the same reading) is kept without its
+    supersedes link and marked for review with the version it was made to
+    correct. Returns counts, the uuids refused and the new readings' ids."""
+    checked = [_check_reading_item(d, i) for i, d in enumerate(readings or [])]
+    fresh, dup, refused = _sort_fresh(conn, checked)
+    if not fresh:
+        return {"new": 0, "duplicate": dup, "refused": refused, "review": 0, "ids": []}
+    review = _insert_rows(conn, sites, fresh)
+    new_ids = _uuid_ids(conn, [d["uuid"] for d in fresh])
+    now = utc_now()
+    conn.executemany("INSERT INTO reading_review (reading_id, supersedes_uuid, noted_at) "
+                     "VALUES (?, ?, ?) ON CONFLICT (reading_id) DO NOTHING",
+                     [(new_ids[u], s, now) for u, s in review])
+    _insert_origins(conn, fresh, new_ids, default_origin)
     return {"new": len(fresh), "duplicate": dup, "refused": refused, "review": len(review),
             "ids": list(new_ids.values())}
 
