@@ -79,6 +79,74 @@ def _looks_spreadsheet_made(cell: str) -> str | None:
     return None
 
 
+def _fit_width(cells: list[str], width: int) -> bool:
+    """Trim empty cells past the header or pad a short row, in place; whether
+    the row now has the header's width (if not, the import names the line)."""
+    if len(cells) > width and not any(c.strip() for c in cells[width:]):
+        del cells[width:]
+    elif len(cells) < width:
+        cells.extend([""] * (width - len(cells)))
+    return len(cells) == width
+
+
+def _ungrouped(m: re.Match) -> str:
+    return m.group(1) + m.group(2).replace(",", "") + (m.group(3) or "")
+
+
+def _ungroup_numbers(cells: list[str], num_idx: list[int]) -> None:
+    for i in num_idx:
+        m = _GROUPED_RE.fullmatch(cells[i])
+        if m:
+            cells[i] = _ungrouped(m)
+
+
+def _water_parts(cells: list[str], parts_i: int | None) -> tuple[str, float | None]:
+    """The row's ratio_water_parts as text and as N (None unless 0 < N <= 1000)."""
+    parts = cells[parts_i].strip() if parts_i is not None else ""
+    if not parts:
+        return parts, None
+    m = _GROUPED_RE.fullmatch(parts)
+    try:
+        n = float(_ungrouped(m) if m else parts)
+    except ValueError:
+        return parts, None
+    return parts, (n if 0 < n <= 1000 else None)
+
+
+def _restore_ratio(cells: list[str], ratio_i: int, parts_i: int | None, line: int,
+                   problem) -> None:
+    """Undo a ratio a spreadsheet made into a time or date (from the row's
+    ratio_water_parts), or report it; report a ratio that disagrees with it."""
+    from .science import InputError
+    from .forms import parse_ratio
+    cell = cells[ratio_i]
+    why = _looks_spreadsheet_made(cell)
+    parts, n = _water_parts(cells, parts_i)
+    if why:
+        if n is None:
+            problem("ratio", line, cell, why + " (no ratio_water_parts to restore it)")
+        else:
+            from .csvio import plain_number
+            cells[ratio_i] = "1:" + plain_number(n)
+    elif n is not None:
+        text = cell[1:] if cell.startswith("'") else cell
+        try:
+            agrees = abs(parse_ratio(text) - n) <= 1e-9 * max(1.0, n)
+        except InputError:
+            agrees = True           # the import refuses it with the parser's words
+        if not agrees:
+            problem("ratio", line, cell, f"disagrees with ratio_water_parts {parts!r}")
+
+
+def _check_times(cells: list[str], time_idx: list[tuple[str, int]], line: int,
+                 problem) -> None:
+    for col, i in time_idx:
+        cell = cells[i]
+        if cell.strip() and _lost_offset(cell):
+            problem(col, line, cell, "has lost its UTC offset (a spreadsheet rewrote "
+                    "the time)")
+
+
 def restore(header: list[str], rows: list[list[str]], numeric: set[str],
             first_line: int = 2) -> tuple[list[str], list[list[str]]]:
     """Undo what a spreadsheet did to an export on open and save, or raise
@@ -112,55 +180,14 @@ def restore(header: list[str], rows: list[list[str]], numeric: set[str],
     ratio_i = pos.get("ratio")
     parts_i = pos.get("ratio_water_parts")
     time_idx = [(c, pos[c]) for c in TIME_COLUMNS if c in pos]
-    from .science import InputError
-    from .forms import parse_ratio
     for k, cells in enumerate(rows):
         line = first_line + k
-        if not cells or cells == [""]:
+        if not cells or cells == [""] or not _fit_width(cells, width):
             continue
-        if len(cells) > width and not any(c.strip() for c in cells[width:]):
-            del cells[width:]
-        elif len(cells) < width:
-            cells.extend([""] * (width - len(cells)))
-        if len(cells) != width:
-            continue                        # the import's own check names the line
-        for i in num_idx:
-            m = _GROUPED_RE.fullmatch(cells[i])
-            if m:
-                cells[i] = m.group(1) + m.group(2).replace(",", "") + (m.group(3) or "")
+        _ungroup_numbers(cells, num_idx)
         if ratio_i is not None and cells[ratio_i].strip():
-            cell = cells[ratio_i]
-            why = _looks_spreadsheet_made(cell)
-            parts = cells[parts_i].strip() if parts_i is not None else ""
-            n = None
-            if parts:
-                m = _GROUPED_RE.fullmatch(parts)
-                try:
-                    n = float(m.group(1) + m.group(2).replace(",", "") + (m.group(3) or "")
-                              if m else parts)
-                except ValueError:
-                    n = None
-                if n is not None and not (0 < n <= 1000):
-                    n = None
-            if why:
-                if n is None:
-                    problem("ratio", line, cell, why + " (no ratio_water_parts to restore it)")
-                else:
-                    from .csvio import plain_number
-                    cells[ratio_i] = "1:" + plain_number(n)
-            elif n is not None:
-                text = cell[1:] if cell.startswith("'") else cell
-                try:
-                    agrees = abs(parse_ratio(text) - n) <= 1e-9 * max(1.0, n)
-                except InputError:
-                    agrees = True           # the import refuses it with the parser's words
-                if not agrees:
-                    problem("ratio", line, cell, f"disagrees with ratio_water_parts {parts!r}")
-        for col, i in time_idx:
-            cell = cells[i]
-            if cell.strip() and _lost_offset(cell):
-                problem(col, line, cell, "has lost its UTC offset (a spreadsheet rewrote "
-                        "the time)")
+            _restore_ratio(cells, ratio_i, parts_i, line, problem)
+        _check_times(cells, time_idx, line, problem)
     if problems:
         raise Untrusted(problems)
     return header, rows

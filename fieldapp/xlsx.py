@@ -194,30 +194,20 @@ def _reading_row(row, readable: ReadableCells, acks: str) -> list:
             _local(row["recorded_at"]), row["app_version"], acks]
 
 
-def export_xlsx(conn, out: IO[bytes] | str, site_id: int | None = None,
-                report: dict | None = None) -> dict:
-    """Write the workbook to ``out`` (a path or a binary file). Returns counts
-    {"readings": n, "sites": n}. On a damaged log every readable row is
-    written and ``report["skipped"]`` counts the rest (as the CSV export)."""
-    from openpyxl import Workbook
-    from .results import CAUTIONS
-    from .science import extracts, tolerance
-    from .sites import kind_label
-    wb = Workbook(write_only=True)
-    readings = _Writer(wb, "Readings", READING_COLUMNS)
-    sites_ws = _Writer(wb, "Sites", SITE_COLUMNS)
-    sources = _Writer(wb, "Sources", SOURCE_COLUMNS)
+def _write_readings(conn, sheet: _Writer, readable: ReadableCells, site_id: int | None,
+                    report: dict | None) -> tuple[int, dict[str, str], set[str]]:
+    """The Readings sheet, streamed from the keyset read. Returns the count,
+    the method keys met (key -> what it is) and the textures met."""
     try:
         acked = store.acked_reading_ids(conn)
     except sqlite3.DatabaseError:
         acked = set()
-    readable = ReadableCells()
     methods: dict[str, str] = {}            # key -> what it is
     textures: set[str] = set()
     n = 0
     for row in store.iter_readings_keyset(conn, site_id=site_id, report=report):
         acks = _acks_cell(_acks_or_none(conn, row["id"])) if row["id"] in acked else ""
-        readings.append(_reading_row(row, readable, acks))
+        sheet.append(_reading_row(row, readable, acks))
         n += 1
         if row["ece_method"]:
             methods.setdefault(row["ece_method"], "ECe method")
@@ -228,49 +218,85 @@ def export_xlsx(conn, out: IO[bytes] | str, site_id: int | None = None,
             methods.setdefault(m.group(1), "Temperature method")
         if row["texture"]:
             textures.add(row["texture"])
+    return n, methods, textures
+
+
+def _write_sites(conn, sheet: _Writer, readable: ReadableCells, site_id: int | None,
+                 textures: set[str]) -> tuple[int, set[str]]:
+    """The Sites sheet; adds the sites' textures to ``textures``. Returns the
+    count and the crops met."""
+    from .sites import kind_label
     crops: set[str] = set()
     n_sites = 0
     for s in store.list_sites(conn):
         if site_id is not None and s["id"] != site_id:
             continue
         n_sites += 1
-        sites_ws.append([s["name"], kind_label(s["kind"]), s["crop"], s["texture"], s["sp_pct"],
-                         s["latitude"], s["longitude"], s["notes"], _local(s["created_at"]),
-                         s["n_readings"], _local(s["last_taken_at"]),
-                         readable.label("sample_label", s["last_sample"]), s["last_value"],
-                         s["last_unit"], s["last_ec25_dS_m"], s["last_ece_dS_m"],
-                         readable.label("flags", s["last_flags"])])
+        sheet.append([s["name"], kind_label(s["kind"]), s["crop"], s["texture"], s["sp_pct"],
+                      s["latitude"], s["longitude"], s["notes"], _local(s["created_at"]),
+                      s["n_readings"], _local(s["last_taken_at"]),
+                      readable.label("sample_label", s["last_sample"]), s["last_value"],
+                      s["last_unit"], s["last_ec25_dS_m"], s["last_ece_dS_m"],
+                      readable.label("flags", s["last_flags"])])
         if s["crop"]:
             crops.add(s["crop"])
         if s["texture"]:
             textures.add(s["texture"])
+    return n_sites, crops
+
+
+def _crop_row(name: str) -> list:
+    from .science import tolerance
+    try:
+        c = tolerance.find_crop(name)
+    except Exception:           # a crop name no table row has: say so
+        return ["Crop salt tolerance (Maas-Hoffman)", name, name,
+                "no row in the crop table", "unverified"]
+    return ["Crop salt tolerance (Maas-Hoffman)", c.name,
+            f"threshold {c.threshold_dS_m:g} dS/m, slope "
+            f"{c.slope_pct_per_dS_m:g} %/(dS/m), class {c.tolerance_class}",
+            labels.readable_source(c.source),
+            "checked against the published table" if c.verified else "unverified"]
+
+
+def _write_sources(sheet: _Writer, methods: dict[str, str], crops: set[str],
+                   textures: set[str]) -> None:
+    """The Sources sheet: each method, crop and texture met, then the cautions."""
+    from .results import CAUTIONS
+    from .science import extracts
     for key in sorted(methods, key=lambda k: (methods[k], k)):
         src = _method_source(key)
         label = labels.route_label(key) if methods[key] == "Solute potential route" \
             else labels.method_label(key)
-        sources.append([methods[key], key, label, labels.readable_source(src), _checked(src)])
+        sheet.append([methods[key], key, label, labels.readable_source(src), _checked(src)])
     for name in sorted(crops):
-        try:
-            c = tolerance.find_crop(name)
-        except Exception:           # a crop name no table row has: say so
-            sources.append(["Crop salt tolerance (Maas-Hoffman)", name, name,
-                            "no row in the crop table", "unverified"])
-            continue
-        sources.append(["Crop salt tolerance (Maas-Hoffman)", c.name,
-                        f"threshold {c.threshold_dS_m:g} dS/m, slope "
-                        f"{c.slope_pct_per_dS_m:g} %/(dS/m), class {c.tolerance_class}",
-                        labels.readable_source(c.source),
-                        "checked against the published table" if c.verified else "unverified"])
+        sheet.append(_crop_row(name))
     for name in sorted(textures):
         try:
             t = extracts.find_texture(name)
         except Exception:
             continue
-        sources.append(["Texture: typical saturation percentage", t.name,
-                        f"SP {t.sp_pct:g} % (range {t.sp_low_pct:g}-{t.sp_high_pct:g} %)",
-                        labels.readable_source(t.source), _checked(t.source, t.verified)])
-    sources.append(["", "", "", "", ""])
+        sheet.append(["Texture: typical saturation percentage", t.name,
+                      f"SP {t.sp_pct:g} % (range {t.sp_low_pct:g}-{t.sp_high_pct:g} %)",
+                      labels.readable_source(t.source), _checked(t.source, t.verified)])
+    sheet.append(["", "", "", "", ""])
     for text in CAUTIONS:
-        sources.append(["Caution", "", text, "", ""])
+        sheet.append(["Caution", "", text, "", ""])
+
+
+def export_xlsx(conn, out: IO[bytes] | str, site_id: int | None = None,
+                report: dict | None = None) -> dict:
+    """Write the workbook to ``out`` (a path or a binary file). Returns counts
+    {"readings": n, "sites": n}. On a damaged log every readable row is
+    written and ``report["skipped"]`` counts the rest (as the CSV export)."""
+    from openpyxl import Workbook
+    wb = Workbook(write_only=True)
+    readings = _Writer(wb, "Readings", READING_COLUMNS)
+    sites_ws = _Writer(wb, "Sites", SITE_COLUMNS)
+    sources = _Writer(wb, "Sources", SOURCE_COLUMNS)
+    readable = ReadableCells()
+    n, methods, textures = _write_readings(conn, readings, readable, site_id, report)
+    n_sites, crops = _write_sites(conn, sites_ws, readable, site_id, textures)
+    _write_sources(sources, methods, crops, textures)
     wb.save(out)
     return {"readings": n, "sites": n_sites}

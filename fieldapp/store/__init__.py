@@ -44,10 +44,12 @@ from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cu
                      iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
 from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
                       stage_import_rows)  # noqa: F401
-from .sync import (apply_pull, apply_push, clean_person, follow_site, get_setting,
-                   insert_office_device, is_empty, list_follows, list_office_devices,
-                   log_fingerprint, log_uuid, note_reading_origin, office_device,
-                   office_device_by_token, count_office_devices_of_code, people_and_devices,
-                   pull_site, push_batch, review_pairs, revoke_office_device,
-                   scout_activity, set_setting, site_readings_by, sites_across_devices,
-                   touch_office_device, unfollow_site)  # noqa: F401
+from .sync import (clean_person, follow_site, get_setting, list_follows, log_uuid,
+                   note_reading_origin, set_setting, unfollow_site)  # noqa: F401
+from .sync_devices import (count_office_devices_of_code, insert_office_device,
+                           list_office_devices, office_device, office_device_by_token,
+                           revoke_office_device, touch_office_device)  # noqa: F401
+from .sync_send import is_empty, pull_site, push_batch  # noqa: F401
+from .sync_apply import apply_pull, apply_push  # noqa: F401
+from .sync_views import (log_fingerprint, people_and_devices, review_pairs, scout_activity,
+                         site_readings_by, sites_across_devices)  # noqa: F401

@@ -116,7 +116,7 @@ def connect(path: str | Path, upgrade: bool = True, check: bool = True) -> sqlit
     A file that is not a SQLite database, or a SQLite database of another
     program, raises StoreError and is left untouched.
     """
-    from .rescue import inspect_log, unwritable_reason
+    from .rescue import inspect_log
     from . import pg
     if pg.is_url(path):
         return pg.connect_log(path, upgrade=upgrade)
@@ -126,51 +126,71 @@ def connect(path: str | Path, upgrade: bool = True, check: bool = True) -> sqlit
         if state["state"] != "ok":
             raise StoreError(state["problem"], status=503)
     existed = path.exists() and path.stat().st_size > 0
+    conn = _open_sqlite(path)
+    if not upgrade:
+        conn.execute("PRAGMA synchronous = FULL")
+        return conn
+    try:
+        _upgrade_sqlite(conn, path, existed)
+    except sqlite3.OperationalError as e:
+        conn.close()
+        raise _operational_error(path, e) from None
+    except sqlite3.DatabaseError as e:
+        conn.close()
+        raise _unreadable(path, e) from None
+    except StoreError:
+        conn.close()
+        raise
+    return conn
+
+
+def _open_sqlite(path: Path) -> sqlite3.Connection:
+    """A connection in autocommit (the store opens its own transactions),
+    rows by name, foreign keys on, waiting up to 30 s for a writer."""
     conn = sqlite3.connect(path, timeout=30, isolation_level=None,
                            check_same_thread=False)
     conn.row_factory = sqlite3.Row
     conn.execute("PRAGMA foreign_keys = ON")
     conn.execute("PRAGMA busy_timeout = 30000")
-    if not upgrade:
-        conn.execute("PRAGMA synchronous = FULL")
-        return conn
-    try:
-        conn.execute("PRAGMA synchronous = FULL")
-        if existed:
-            tables = {r[0] for r in conn.execute(
-                "SELECT name FROM sqlite_master WHERE type='table'")}
-            if tables and "readings" not in tables:
-                raise StoreError(f"{path} is a database of another program; fieldapp will "
-                                 "not touch it. Choose another --data folder.", status=500)
-            _check_version(conn)   # before anything writes to the file
-        conn.execute("PRAGMA journal_mode = WAL")
-        migrate(conn)
-    except sqlite3.OperationalError as e:
-        conn.close()
-        msg = str(e).lower()
-        why = unwritable_reason(path.parent, msg)
-        if why:
-            err = StoreError(f"fieldapp cannot write to the log: {why}. The log itself is "
-                             "not damaged. Free some space or make the folder writable, or "
-                             "choose another --data folder.", status=503)
-            err.unwritable = why
-            raise err from None
-        if "unable to open" in msg:
-            raise StoreError(f"fieldapp cannot open {path} ({e}): check the folder's "
-                             "permissions, or choose another --data folder.",
-                             status=503) from None
-        raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
-                         "it is; restore a backup or choose another --data folder.",
-                         status=500) from None
-    except sqlite3.DatabaseError as e:
-        conn.close()
-        raise StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
-                         "it is; restore a backup or choose another --data folder.",
-                         status=500) from None
-    except StoreError:
-        conn.close()
-        raise
     return conn
+
+
+def _upgrade_sqlite(conn, path: Path, existed: bool) -> None:
+    """Refuse another program's database or a newer schema before anything
+    writes to the file, then WAL and the migrations."""
+    conn.execute("PRAGMA synchronous = FULL")
+    if existed:
+        tables = {r[0] for r in conn.execute(
+            "SELECT name FROM sqlite_master WHERE type='table'")}
+        if tables and "readings" not in tables:
+            raise StoreError(f"{path} is a database of another program; fieldapp will "
+                             "not touch it. Choose another --data folder.", status=500)
+        _check_version(conn)   # before anything writes to the file
+    conn.execute("PRAGMA journal_mode = WAL")
+    migrate(conn)
+
+
+def _unreadable(path: Path, e: Exception) -> StoreError:
+    return StoreError(f"{path} is not a readable fieldapp database ({e}). It was left as "
+                      "it is; restore a backup or choose another --data folder.", status=500)
+
+
+def _operational_error(path: Path, e: sqlite3.OperationalError) -> StoreError:
+    """What to tell the user when opening or upgrading the file failed: a
+    full disk or a read-only folder, a file that cannot be opened, or damage."""
+    from .rescue import unwritable_reason
+    msg = str(e).lower()
+    why = unwritable_reason(path.parent, msg)
+    if why:
+        err = StoreError(f"fieldapp cannot write to the log: {why}. The log itself is "
+                         "not damaged. Free some space or make the folder writable, or "
+                         "choose another --data folder.", status=503)
+        err.unwritable = why
+        return err
+    if "unable to open" in msg:
+        return StoreError(f"fieldapp cannot open {path} ({e}): check the folder's "
+                          "permissions, or choose another --data folder.", status=503)
+    return _unreadable(path, e)
 
 
 def _check_version(conn: sqlite3.Connection) -> int:
