@@ -41,11 +41,13 @@ class SyncError(Exception):
     """A sync that could not go on; ``message`` says why in plain words.
     Nothing already stored is lost: cursors advance only on confirmation."""
 
-    def __init__(self, message: str, status: int | None = None, retry: bool = False):
+    def __init__(self, message: str, status: int | None = None, retry: bool = False,
+                 bad_input: bool = False):
         super().__init__(message)
         self.message = message
         self.status = status
         self.retry = retry       # a dropped connection: the next sync carries on
+        self.bad_input = bad_input   # what the person typed cannot be used (exit 2)
 
 
 # ---------------------------------------------------------------- addresses
@@ -69,17 +71,20 @@ def check_office_url(url: str) -> str:
         host = p.hostname
         p.port          # noqa: B018 - raises on a port that is not a number
     except ValueError:
-        raise SyncError(f"{url!r} is not an address like https://office.example:8443.") from None
+        raise SyncError(f"{url!r} is not an address like https://office.example:8443.",
+                        bad_input=True) from None
     if p.scheme not in ("http", "https") or not host:
-        raise SyncError(f"{url!r} is not an address like https://office.example:8443.")
+        raise SyncError(f"{url!r} is not an address like https://office.example:8443.",
+                        bad_input=True)
     if p.username or p.password or p.query or p.fragment:
-        raise SyncError("Give the office's address without a user name, query or #part.")
+        raise SyncError("Give the office's address without a user name, query or #part.",
+                        bad_input=True)
     if p.scheme == "http" and not is_local_host(host):
         raise SyncError(
             f"Refused: {host} is reached over plain http, so anyone on that network could "
             "copy this device's token. Use the office's https address (a TLS reverse proxy, "
             "or serve --lan's https port with --ca-file); plain http is only for this "
-            "machine itself (127.0.0.1, localhost).")
+            "machine itself (127.0.0.1, localhost).", bad_input=True)
     return url
 
 

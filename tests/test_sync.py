@@ -307,7 +307,7 @@ def test_token_is_never_sent_over_plain_http_to_another_machine(url, tmp_path):
     assert "http" in e.value.message
     r = CliRunner().invoke(__import__("fieldapp.cli", fromlist=["cli"]).cli,
                            ["sync", url, "--code", "ABCD-EFGH", "--data", str(tmp_path)])
-    assert r.exit_code == 1 and ("Refused" in r.output or "not an address" in r.output)
+    assert r.exit_code == 2 and ("Refused" in r.output or "not an address" in r.output)
     conn = store.connect(tmp_path / store.DB_NAME)
     assert store.get_setting(conn, store.sync.OFFICE_TOKEN) is None
     conn.close()

@@ -62,6 +62,7 @@ def test_cli_pairs_syncs_and_remembers_the_office(office, tmp_path):
                                  "--follow", "Block 3", "--data", str(dev)])
     assert r.exit_code == 0, r.output
     assert "Sent 1 reading version(s)" in r.output and "Paired with" in r.output
+    assert "sending:" not in r.output            # no redrawn progress line off a terminal
     r = CliRunner().invoke(cli, ["sync", "--data", str(dev), "--json"])
     assert r.exit_code == 0, r.output
     assert '"readings_sent": 0' in r.output

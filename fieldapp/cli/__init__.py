@@ -75,7 +75,7 @@ class FieldappGroup(click.Group):
             code = _bad(e.message)
         except SyncError as e:          # refused or cut off: nothing confirmed is lost
             _bad(e.message)
-            code = 1
+            code = EXIT_BAD_INPUT if e.bad_input or e.status in (400, 403) else 1
         except sqlite3.DatabaseError as e:     # one line, never a traceback, on a damaged log
             if hasattr(e, "sqlstate"):         # an office database on PostgreSQL (store/pg.py)
                 code = _bad(f"the office database refused the request or did not answer ({e}).")

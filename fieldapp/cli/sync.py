@@ -56,7 +56,8 @@ def sync_cmd(url, code, name, person, ca_file, follow, unfollow, no_sync, as_jso
         target = url or known
         if code:
             if not target:
-                raise syncmod.SyncError("Give the office's address to pair with it.")
+                raise syncmod.SyncError("Give the office's address to pair with it.",
+                                        bad_input=True)
             t = syncmod.HttpTransport(target, ca_file=ca)
             try:
                 syncmod.pair(conn, t, code, name or store.get_setting(conn, s.DEVICE_NAME) or "",
@@ -66,24 +67,26 @@ def sync_cmd(url, code, name, person, ca_file, follow, unfollow, no_sync, as_jso
             click.echo(f"Paired with {t.base}.", err=True)
         elif url and known and syncmod.check_office_url(url) != known:
             raise syncmod.SyncError(f"This device is paired with {known}; to pair with {url}, "
-                                    "give the code it shows (--code).")
+                                    "give the code it shows (--code).", bad_input=True)
         if no_sync:
             return 0
         if not target:
             raise syncmod.SyncError("This device is not paired with an office yet: run "
                                     "fieldapp sync URL --code CODE with the code the office "
-                                    "shows.")
+                                    "shows.", bad_input=True)
         t = syncmod.HttpTransport(target, ca_file=ca)
 
-        def show(p):
-            if not as_json:
+        live = not as_json and click.get_text_stream("stderr").isatty()
+
+        def show(p):            # a line redrawn on a terminal; nothing in a pipe or a log
+            if live:
                 click.echo(f"\r{p['stage']}: sent {p['readings_sent']} in {p['batches_sent']} "
                            f"batch(es), received {p['readings_received']}   ", nl=False, err=True)
         try:
             result = syncmod.sync(conn, t, progress=syncmod.Progress(show))
         finally:
             t.close()
-            if not as_json:
+            if live:
                 click.echo("", err=True)
     if as_json:
         click.echo(json.dumps(result, indent=2))
