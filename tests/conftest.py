@@ -111,16 +111,22 @@ def lock_wait(conn, ms: int) -> None:
         conn.execute(f"PRAGMA busy_timeout = {int(ms)}")
 
 
-@pytest.fixture
-def app(tmp_path, backend, request):
+def make_app(data_dir, backend, request):
+    """An application for a test: its log in ``data_dir`` (SQLite) or a fresh
+    PostgreSQL database; a generator, so the pool closes after the test."""
     from fieldapp import create_app
     from fieldapp.web.db import close_pool
-    config = {"TESTING": True, "DATA_DIR": str(tmp_path / "data")}
+    config = {"TESTING": True, "DATA_DIR": str(data_dir)}
     if backend == "postgresql":
         config["DB"] = request.getfixturevalue("pg_db")
     a = create_app(config)
     yield a
     close_pool(a)
+
+
+@pytest.fixture
+def app(tmp_path, backend, request):
+    yield from make_app(tmp_path / "data", backend, request)
 
 
 @pytest.fixture

@@ -15,7 +15,7 @@ from click.testing import CliRunner
 
 from fieldapp import create_app, records, store
 from fieldapp import sync as syncmod
-from fieldapp.web.db import close_pool
+from conftest import make_app
 from fieldapp.web.pairing import format_code, new_code
 
 BOTH_BACKENDS = True
@@ -51,12 +51,7 @@ class ClientTransport:
 @pytest.fixture
 def office_app(tmp_path, backend, request):
     """The office: the same application on its own log (SQLite or PostgreSQL)."""
-    config = {"TESTING": True, "DATA_DIR": str(tmp_path / "office")}
-    if backend == "postgresql":
-        config["DB"] = request.getfixturevalue("pg_db")
-    a = create_app(config)
-    yield a
-    close_pool(a)
+    yield from make_app(tmp_path / "office", backend, request)
 
 
 @pytest.fixture

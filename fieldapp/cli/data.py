@@ -143,25 +143,18 @@ def init_db(data):
     if db_url():
         from ..store.pg import redact
         before, now = init(db_url())
-        where = redact(db_url())
-        if before is None:
-            click.echo(f"fieldapp: new log in {where} (schema {now}).", err=True)
-        elif before == now:
-            click.echo(f"fieldapp: the log in {where} is up to date (schema {now}).", err=True)
-        else:
-            click.echo(f"fieldapp: the log in {where} went from schema {before} to {now}.",
-                       err=True)
-        return 0
-    folder = Path(data_dir(data))
-    folder.mkdir(parents=True, exist_ok=True)
-    before, now = init(folder / store.DB_NAME)
-    where = folder / store.DB_NAME
-    if before is None:
-        click.echo(f"fieldapp: new log at {where} (schema {now}).", err=True)
-    elif before == now:
-        click.echo(f"fieldapp: the log at {where} is up to date (schema {now}).", err=True)
+        where, at = redact(db_url()), "in"
     else:
-        click.echo(f"fieldapp: the log at {where} went from schema {before} to {now}.",
+        folder = Path(data_dir(data))
+        folder.mkdir(parents=True, exist_ok=True)
+        where, at = folder / store.DB_NAME, "at"
+        before, now = init(where)
+    if before is None:
+        click.echo(f"fieldapp: new log {at} {where} (schema {now}).", err=True)
+    elif before == now:
+        click.echo(f"fieldapp: the log {at} {where} is up to date (schema {now}).", err=True)
+    else:
+        click.echo(f"fieldapp: the log {at} {where} went from schema {before} to {now}.",
                    err=True)
     return 0
 

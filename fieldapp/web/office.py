@@ -19,18 +19,17 @@ sites to follow, and sends to the office in the background with progress.
 """
 from __future__ import annotations
 
-import hmac
 import secrets
 import threading
 
-from flask import (Blueprint, abort, current_app, g, jsonify, render_template, request)
+from flask import Blueprint, abort, current_app, jsonify, render_template, request
 
 from .. import store
 from .. import sync as syncmod
 from .db import get_db
 from .helpers import json_body, site_by_id
-from .pairing import _limiter, _utc, current_code, format_code, new_code, normalize_code, \
-    token_digest, DEVICES_PER_CODE
+from .pairing import (DEVICES_PER_CODE, _limiter, current_code, format_code, matching_code,
+                      new_code, normalize_code, token_digest)
 from .security import is_laptop
 
 bp = Blueprint("office", __name__)
@@ -98,10 +97,7 @@ def sync_pair():
                                 "office shows now.", "code")
             resp.headers["Retry-After"] = str(wait)
             return resp
-        match = None
-        for row in store.active_pairing_codes(db, _utc()):
-            if hmac.compare_digest(row["code"].encode(), typed[:64].encode()):
-                match = row
+        match = matching_code(db, typed)
         if match is None:
             limiter.fail(db, addr)
             return _refuse(403, "That code is not valid. Type the code the office shows now "

@@ -69,6 +69,17 @@ def format_code(code: str) -> str:
     return code[:4] + "-" + code[4:] if len(code) == CODE_LENGTH else code
 
 
+
+def matching_code(db, typed: str):
+    """The active pairing code the person typed, or None. Every active code is
+    compared in constant time, so the answer's timing says nothing."""
+    match = None
+    for row in store.active_pairing_codes(db, _utc()):
+        if hmac.compare_digest(row["code"].encode(), typed[:64].encode()):
+            match = row
+    return match
+
+
 def _utc(delta: dt.timedelta = dt.timedelta(0)) -> str:
     return (dt.datetime.now(dt.timezone.utc) + delta).isoformat(timespec="seconds")
 
@@ -278,10 +289,7 @@ def pair():
             resp.status_code = 429
             resp.headers["Retry-After"] = str(wait)
             return resp
-        match = None
-        for row in store.active_pairing_codes(db, _utc()):
-            if hmac.compare_digest(row["code"].encode(), typed[:64].encode()):
-                match = row
+        match = matching_code(db, typed)
         if match is None:
             limiter.fail(db, addr)
             return jsonify(error="That code is not valid. Type the code the laptop shows "
