@@ -6,7 +6,7 @@ from typing import Mapping
 
 from ..fmt import number as fmt   # chart labels 3 digits, data-value attributes 6
 from .axes import _axis_top, _band_rects, nice_ticks
-from .svg import LINE_DASHES, _f, _legend, _legend_items, _mark, _open_svg, _style, esc
+from .svg import LINE_DASHES, _f, _legend, _legend_items, _mark, _open_svg, marks_group, _style, esc
 
 
 def _profile_series(spec: Mapping) -> list[dict]:
@@ -65,10 +65,9 @@ def _series(series, X, Y) -> list[str]:
             path = " ".join(f"{_f(X(float(p['x'])))},{_f(Y(float(p['depth'])))}" for p in sp)
             body.append(f'<polyline class="series-line" points="{path}" fill="none" '
                         f'stroke="{colour}" stroke-width="1.6" stroke-dasharray="{dash}"/>')
-        for p in sp:
-            body.append(_mark(i, X(float(p["x"])), Y(float(p["depth"])), p.get("key"),
-                              p.get("label") or f'{s["name"]}: {fmt(float(p["x"]))}',
-                              bool(p.get("flagged"))))
+        body.append(marks_group(i, [_mark(i, X(float(p["x"])), Y(float(p["depth"])), p.get("key"),
+                                          p.get("label") or f'{s["name"]}: {fmt(float(p["x"]))}',
+                                          bool(p.get("flagged"))) for p in sp]))
     return body
 
 

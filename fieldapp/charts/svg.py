@@ -66,18 +66,27 @@ def _style(i: int) -> tuple[str, bool, str, str]:
 
 
 def _mark(i: int, x: float, y: float, key, label: str, flagged: bool) -> str:
-    shape, filled, _, colour = _style(i)
-    fill = colour if filled and shape != "cross" else "#ffffff"
-    if shape == "cross":
-        fill = "none"
+    """One reading's marker (and a dashed ring when flagged). Its fill and
+    stroke come from its series' group (:func:`marks_group`): a long series
+    repeats no paint attributes per mark."""
+    shape = _style(i)[0]
     cls = "mark flagged" if flagged else "mark"
     ring = ""
     if flagged:
         ring = (f'<circle class="flag-ring" cx="{_f(x)}" cy="{_f(y)}" r="8.5" fill="none" '
                 f'stroke="#000" stroke-width="1.3" stroke-dasharray="2.5 1.8"/>')
     return (f'{ring}<path class="{cls}" data-series="{i}" data-key="{esc(key)}" '
-            f'd="{marker_path(shape, x, y)}" fill="{fill}" stroke="{colour}" '
-            f'stroke-width="1.6"><title>{esc(label)}</title></path>')
+            f'd="{marker_path(shape, x, y)}"><title>{esc(label)}</title></path>')
+
+
+def marks_group(i: int, marks: list[str]) -> str:
+    """The markers of series ``i`` in one group that paints them: filled or
+    white with the series colour as outline (a cross is a stroke only), so a
+    chart printed in black and white still tells the series apart."""
+    shape, filled, _, colour = _style(i)
+    fill = "none" if shape == "cross" else colour if filled else "#ffffff"
+    return (f'<g class="series-marks" fill="{fill}" stroke="{colour}" stroke-width="1.6">'
+            + "".join(marks) + "</g>")
 
 
 def _legend(items: list[tuple[str, str]], x0: float, y0: float, width: float,

@@ -6,7 +6,7 @@ from typing import Mapping
 
 from ..fmt import number as fmt   # chart labels 3 digits, data-value attributes 6
 from .axes import _axis_top, _band_rects, _day_number, parse_time, time_ticks
-from .svg import LINE_DASHES, _f, _legend, _legend_items, _mark, _open_svg, _style, esc
+from .svg import LINE_DASHES, _f, _legend, _legend_items, _mark, _open_svg, marks_group, _style, esc
 
 
 def _time_span(pts, highlight):
@@ -92,9 +92,9 @@ def _series(series, X, Y) -> list[str]:
             path = " ".join(f"{_f(X(d))},{_f(Y(v))}" for d, v, _ in sp)
             body.append(f'<polyline class="series-line" points="{path}" fill="none" '
                         f'stroke="{colour}" stroke-width="1.6" stroke-dasharray="{dash}"/>')
-        for d, v, p in sp:
-            body.append(_mark(i, X(d), Y(v), p.get("key"), p.get("label") or
-                              f'{s["name"]}: {fmt(v)}', bool(p.get("flagged"))))
+        body.append(marks_group(i, [_mark(i, X(d), Y(v), p.get("key"), p.get("label") or
+                                          f'{s["name"]}: {fmt(v)}', bool(p.get("flagged")))
+                                    for d, v, p in sp]))
     return body
 
 
