@@ -17,9 +17,55 @@ def _fmt(x, unit="", digits=3):
     return number(x, digits, unit=unit or None)
 
 
+def _solute_lines(r: dict) -> list[str]:
+    from ..labels import route_label
+    if r["psi_s_MPa"] is None:
+        return []
+    others = "; ".join(f"{route_label(k)} {_fmt(v, 'MPa') if v is not None else 'not computed'}"
+                       for k, v in r["psi_s_by_method"].items())
+    lines = [f"Solute pot.    {_fmt(r['psi_s_MPa'], 'MPa')}  by {route_label(r['psi_s_method'])}",
+             f"               all routes: {others}"]
+    if r.get("salinity_pss78") is not None:
+        lines.append(f"Salinity       {r['salinity_pss78']:.3g} (PSS-78 practical salinity; "
+                     "sea-salt water)")
+    return lines
+
+
+def _soil_solution_lines(ss: dict | None) -> list[str]:
+    if not ss:
+        return []
+    lines = [f"At field cap.  EC {_fmt(ss['ec_fc_dS_m'], 'dS/m')}, "
+             f"solute potential {_fmt(ss['psi_s_fc_MPa'], 'MPa')}"]
+    if ss["ec_sw_dS_m"] is not None:
+        lines.append(f"At moisture    EC {_fmt(ss['ec_sw_dS_m'], 'dS/m')}, "
+                     f"solute potential {_fmt(ss['psi_s_sw_MPa'], 'MPa')}")
+    if ss["matric_MPa"] is not None:
+        lines.append(f"Total water    {_fmt(ss['psi_total_MPa'], 'MPa')} "
+                     f"(matric {_fmt(ss['matric_MPa'], 'MPa')}); "
+                     f"{_fmt(ss['margin_to_pwp_MPa'], 'MPa')} above wilting point "
+                     f"({ss['wilting_point_MPa']} MPa)")
+    return lines
+
+
+def _crop_lines(r: dict) -> list[str]:
+    crop = r.get("crop")
+    if not crop:
+        return []
+    at = crop["ece_at_yield_dS_m"]
+    lines = [f"Crop           {crop['name']}: threshold {crop['threshold_dS_m']:g} dS/m; "
+             f"ECe at 90/75/50 % yield {at['90']}/{at['75']}/{at['50']} dS/m"]
+    if r.get("relative_yield_pct") is not None:
+        lines.append(f"Rel. yield     {r['relative_yield_pct']:.0f} % (Maas-Hoffman)")
+    if "leaching_requirement" in r:
+        lr = r["leaching_requirement"]
+        lines.append("Leaching req.  " + ("not reachable with this water" if lr is None
+                                          else f"{lr:.2f} of the water applied"))
+    return lines
+
+
 def format_result(r: dict) -> str:
     """The readable form of a conversion result for a terminal."""
-    from ..labels import flag_label, method_label, route_label, sample_label
+    from ..labels import flag_label, method_label, sample_label
     inp = r["input"]
     lines = [f"Reading        {inp['value']:g} {inp['unit']}  - {sample_label(inp['sample'])}"
              + (f", ratio {inp['ratio']}" if inp["ratio"] else "")]
@@ -43,42 +89,13 @@ def format_result(r: dict) -> str:
     if r["water_hazard"]:
         lines.append(f"Water hazard   {r['water_hazard'].replace('_', ' ')} "
                      "(FAO 29 degree of restriction)")
-    if r["psi_s_MPa"] is not None:
-        lines.append(f"Solute pot.    {_fmt(r['psi_s_MPa'], 'MPa')}  by {route_label(r['psi_s_method'])}")
-        others = "; ".join(f"{route_label(k)} {_fmt(v, 'MPa') if v is not None else 'not computed'}"
-                           for k, v in r["psi_s_by_method"].items())
-        lines.append(f"               all routes: {others}")
-        if r.get("salinity_pss78") is not None:
-            lines.append(f"Salinity       {r['salinity_pss78']:.3g} (PSS-78 practical salinity; "
-                         "sea-salt water)")
-    ss = r["soil_solution"]
-    if ss:
-        lines.append(f"At field cap.  EC {_fmt(ss['ec_fc_dS_m'], 'dS/m')}, "
-                     f"solute potential {_fmt(ss['psi_s_fc_MPa'], 'MPa')}")
-        if ss["ec_sw_dS_m"] is not None:
-            lines.append(f"At moisture    EC {_fmt(ss['ec_sw_dS_m'], 'dS/m')}, "
-                         f"solute potential {_fmt(ss['psi_s_sw_MPa'], 'MPa')}")
-        if ss["matric_MPa"] is not None:
-            lines.append(f"Total water    {_fmt(ss['psi_total_MPa'], 'MPa')} "
-                         f"(matric {_fmt(ss['matric_MPa'], 'MPa')}); "
-                         f"{_fmt(ss['margin_to_pwp_MPa'], 'MPa')} above wilting point "
-                         f"({ss['wilting_point_MPa']} MPa)")
+    lines += _solute_lines(r) + _soil_solution_lines(r["soil_solution"])
     tds = r.get("tds") or {}
     if tds.get("meter"):
         lines.append(f"TDS, meter     {tds['meter']['label']}")
     lines.append(f"TDS, estimate  {_fmt(r['tds_mg_L'], 'mg/L')} (USDA Handbook 60, 640 x EC25; "
                  f"not a measurement); cations {_fmt(r['cations_meq_L'], 'meq/L')}")
-    crop = r.get("crop")
-    if crop:
-        at = crop["ece_at_yield_dS_m"]
-        lines.append(f"Crop           {crop['name']}: threshold {crop['threshold_dS_m']:g} dS/m; "
-                     f"ECe at 90/75/50 % yield {at['90']}/{at['75']}/{at['50']} dS/m")
-        if r.get("relative_yield_pct") is not None:
-            lines.append(f"Rel. yield     {r['relative_yield_pct']:.0f} % (Maas-Hoffman)")
-        if "leaching_requirement" in r:
-            lr = r["leaching_requirement"]
-            lines.append("Leaching req.  " + ("not reachable with this water" if lr is None
-                                              else f"{lr:.2f} of the water applied"))
+    lines += _crop_lines(r)
     for f in r["flags"]:
         lines.append(f"[{f['severity']}] {flag_label(f['code'])} ({f['code']}): {f['message']} "
                      f"{f['action']}".rstrip())

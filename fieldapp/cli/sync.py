@@ -16,6 +16,25 @@ from . import cli
 from .common import data_option, open_log
 
 
+def _keep_settings(conn, ca_file, name, person, follow, unfollow) -> str | None:
+    """What the command line changes on this device before it pairs or syncs
+    (the office's CA file, the names, the followed sites); returns the CA file."""
+    from .. import store
+    s = store.sync
+    if ca_file:
+        store.set_setting(conn, s.OFFICE_CA_FILE, str(click.format_filename(ca_file)))
+    if name is not None:
+        store.set_setting(conn, s.DEVICE_NAME, store.clean_person(name) or None)
+    if person is not None:
+        store.set_setting(conn, s.PERSON, store.clean_person(person) or None)
+    for site in follow:
+        click.echo(f"Following {store.follow_site(conn, site)}.", err=True)
+    for site in unfollow:
+        if not store.unfollow_site(conn, site):
+            click.echo(f"Not following {site!r}; nothing changed.", err=True)
+    return store.get_setting(conn, s.OFFICE_CA_FILE)
+
+
 @cli.command("sync")
 @click.argument("url", required=False)
 @click.option("--code", help="the pairing code the office shows (pairs this device first)")
@@ -40,18 +59,7 @@ def sync_cmd(url, code, name, person, ca_file, follow, unfollow, no_sync, as_jso
     from .. import sync as syncmod
     with open_log(data) as conn:
         s = store.sync
-        if ca_file:
-            store.set_setting(conn, s.OFFICE_CA_FILE, str(click.format_filename(ca_file)))
-        ca = store.get_setting(conn, s.OFFICE_CA_FILE)
-        if name is not None:
-            store.set_setting(conn, s.DEVICE_NAME, store.clean_person(name) or None)
-        if person is not None:
-            store.set_setting(conn, s.PERSON, store.clean_person(person) or None)
-        for site in follow:
-            click.echo(f"Following {store.follow_site(conn, site)}.", err=True)
-        for site in unfollow:
-            if not store.unfollow_site(conn, site):
-                click.echo(f"Not following {site!r}; nothing changed.", err=True)
+        ca = _keep_settings(conn, ca_file, name, person, follow, unfollow)
         known = store.get_setting(conn, s.OFFICE_URL)
         target = url or known
         if code:
