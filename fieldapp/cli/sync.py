@@ -9,6 +9,7 @@
 from __future__ import annotations
 
 import json
+import sys
 
 import click
 
@@ -84,7 +85,7 @@ def sync_cmd(url, code, name, person, ca_file, follow, unfollow, no_sync, as_jso
                                     "shows.", bad_input=True)
         t = syncmod.HttpTransport(target, ca_file=ca)
 
-        live = not as_json and click.get_text_stream("stderr").isatty()
+        live = not as_json and sys.stderr.isatty()
 
         def show(p):            # a line redrawn on a terminal; nothing in a pipe or a log
             if live:
