@@ -142,7 +142,10 @@ class Row(tuple):
         return list(self._keys)
 
 
+@lru_cache(maxsize=256)
 def _row_class(names: tuple) -> type:
+    """The row class of a result with these column names, made once per shape
+    (a long export runs the same query thousands of times)."""
     index: dict[str, int] = {}
     for i, n in enumerate(names):
         index.setdefault(n, i)
