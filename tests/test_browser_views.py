@@ -157,8 +157,11 @@ def test_target_range_kept_from_the_site_page(browser, demo):
     assert "upper limit" in page.inner_text("#err-target")
     assert page.input_value("#t-lo") == "2.0" and page.input_value("#t-hi") == "1.5"
     page.fill("#t-hi", "2.2")
-    with page.expect_navigation():
-        page.click("text=Save target")
+    page.click("text=Save target")
+    # the save sets #targets and reloads: wait for the reloaded page's scripts
+    # (a same-document hash change alone would end a wait for "a navigation")
+    page.wait_for_function("() => document.readyState === 'complete' && "
+                           "!!document.querySelector('.sv-target-list')")
     assert "Feed EC: 2 – 2.2 dS/m" in page.inner_text(".sv-target-list")
     assert "above your target" in page.inner_text("#site-state")  # latest feed 2.3 dS/m
     with page.expect_navigation():
