@@ -20,7 +20,7 @@ Sources used (named again beside each check):
   in a public research script (read there, not in the paper).
 - Sen & Goode (1992), Geophysics 57, 89 (citation from memory): an
   independent published NaCl conductivity equation, 20-200 °C, coefficients
-  as transcribed in an open-source R implementation (H2ONaCl_ec_SenGoode1992).
+  as copied in an open-source R implementation (H2ONaCl_ec_SenGoode1992).
 - CRC Handbook table "Electrical conductivity of aqueous solutions" (20 °C,
   by mass percent): NaCl row -- the 0.5-2 % values are from memory (the
   row itself, 5 % = 70.1 mS/cm, was read in a public note quoting it).

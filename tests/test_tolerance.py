@@ -11,7 +11,7 @@ from fieldapp.science import tolerance as tol
 # ---------------------------------------------------------------------------
 # FAO Irrigation and Drainage Paper 29 Rev. 1 (Ayers and Westcot 1985),
 # Table 4 "Crop tolerance and yield potential ... soil salinity (ECe)":
-# ECe (dS/m) at 100, 90, 75 and 50 % yield potential. Transcribed here as an
+# ECe (dS/m) at 100, 90, 75 and 50 % yield potential. Copied here as an
 # independent literal table (NOT read from crops.csv). The table prints one
 # decimal below 10 dS/m and whole numbers above.
 # ---------------------------------------------------------------------------
@@ -284,7 +284,7 @@ def test_corn_rows_against_plos_one_2018_table_3():
 
 # FAO Irrigation and Drainage Paper 61 (Tanji and Kielen 2002), Annex 1
 # Table A1.1 (after Maas and Grattan 1999): threshold (dS/m), slope (%/dS/m)
-# and rating, as transcribed in a public source file (the search tool's code
+# and rating, as copied in a public source file (the search tool's code
 # corpus; read). A second compilation,
 # independent of the FAO 29 Table 4 row above; literal values, not crops.csv.
 FAO61_TABLE_A1_1 = {

@@ -13,7 +13,7 @@ from ._base import _arr, _in
 #:   lambda_i = lambda0_i(t) - A_i(t) * sqrt(I) / (1 + B_i sqrt(I))
 #:   lambda0_i(t) = l0 + l1 t + l2 t^2 ;  A_i(t) = a0 + a1 t + a2 t^2
 #: t in °C, I ionic strength in mol/kg, lambda in S cm^2/mol.
-#: Coefficients transcribed from an open-source implementation of that table
+#: Coefficients copied from an open-source implementation of that table
 #: (PlanetProfile, ``elecCondMcCleskey2012``), not re-read from the paper.
 #: K+ is kept so the model can be checked against the NIST KCl standards.
 #: Stated validity of the method (abstract of McCleskey et al. 2011, Applied

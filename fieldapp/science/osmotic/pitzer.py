@@ -9,7 +9,7 @@ from .water import debye_huckel_aphi
 #: Pitzer & Mayorga (1973), J. Phys. Chem. 77, 2300: NaCl at 25 °C.
 PITZER_MAYORGA_1973_NACL = {"beta0": 0.0765, "beta1": 0.2664, "cphi": 0.00127}
 #: Silvester & Pitzer (1978), J. Solution Chem. 7, 327, Table I: first
-#: temperature derivatives for NaCl, per K (as transcribed in the open-source
+#: temperature derivatives for NaCl, per K (as copied in the open-source
 #: ``pytzer`` function ``bC_Na_Cl_SP78``; the brief's recalled values agree).
 SILVESTER_PITZER_1978_NACL_DT = {"beta0": 7.159e-4, "beta1": 7.005e-4,
                                  "cphi": -10.54e-5}
