@@ -21,38 +21,38 @@ FAO29_TABLE4 = {
     "bean": (1.0, 1.5, 2.3, 3.6),               # read: PLoS ONE 2018 Table 3, ref [81]
     "scallop squash": (3.2, 3.8, 4.8, 6.3),     # read: PLoS ONE 2018 Table 3, ref [81]
     "zucchini": (4.7, 5.8, 7.4, 10.0),          # read: PLoS ONE 2018 Table 3, ref [81]
-    "barley": (8.0, 10.0, 13.0, 18.0),          # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "cotton": (7.7, 9.6, 13.0, 17.0),           # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "barley": (8.0, 10.0, 13.0, 18.0),          # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "cotton": (7.7, 9.6, 13.0, 17.0),           # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "sugar beet": (7.0, 8.7, 11.0, 15.0),       # FAO 29 Table 4 - from memory
-    "sorghum": (6.8, 7.4, 8.4, 9.9),            # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "wheat": (6.0, 7.4, 9.5, 13.0),             # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "soybean": (5.0, 5.5, 6.3, 7.5),            # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "sorghum": (6.8, 7.4, 8.4, 9.9),            # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "wheat": (6.0, 7.4, 9.5, 13.0),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "soybean": (5.0, 5.5, 6.3, 7.5),            # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "cowpea": (4.9, 5.7, 7.0, 9.1),             # FAO 29 Table 4 - from memory
     "peanut": (3.2, 3.5, 4.1, 4.9),             # FAO 29 Table 4 (groundnut) - from memory
-    "rice": (3.0, 3.8, 5.1, 7.2),               # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "sugarcane": (1.7, 3.4, 5.9, 10.0),         # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "rice": (3.0, 3.8, 5.1, 7.2),               # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "sugarcane": (1.7, 3.4, 5.9, 10.0),         # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "red beet": (4.0, 5.1, 6.8, 9.6),           # FAO 29 Table 4 - from memory
     "broccoli": (2.8, 3.9, 5.5, 8.2),           # FAO 29 Table 4 - from memory
-    "tomato": (2.5, 3.5, 5.0, 7.6),             # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "tomato": (2.5, 3.5, 5.0, 7.6),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "cucumber": (2.5, 3.3, 4.4, 6.3),           # FAO 29 Table 4 - from memory
     "spinach": (2.0, 3.3, 5.3, 8.6),            # FAO 29 Table 4 - from memory
     "celery": (1.8, 3.4, 5.8, 9.9),             # FAO 29 Table 4 - from memory
     "cabbage": (1.8, 2.8, 4.4, 7.0),            # FAO 29 Table 4 - from memory
-    "potato": (1.7, 2.5, 3.8, 5.9),             # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "potato": (1.7, 2.5, 3.8, 5.9),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "sweet potato": (1.5, 2.4, 3.8, 6.0),       # FAO 29 Table 4 - from memory
     "pepper": (1.5, 2.2, 3.3, 5.1),             # FAO 29 Table 4 - from memory
     "lettuce": (1.3, 2.1, 3.2, 5.1),            # FAO 29 Table 4 - from memory
     "onion": (1.2, 1.8, 2.8, 4.3),              # FAO 29 Table 4 - from memory
     "carrot": (1.0, 1.7, 2.8, 4.6),             # FAO 29 Table 4 - from memory
-    "alfalfa": (2.0, 3.4, 5.4, 8.8),            # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "bermudagrass": (6.9, 8.5, 11.0, 15.0),     # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "sudangrass": (2.8, 5.1, 8.6, 14.0),        # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "lovegrass": (2.0, 3.2, 5.0, 8.0),          # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "corn forage": (1.8, 3.2, 5.2, 8.6),        # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "alfalfa": (2.0, 3.4, 5.4, 8.8),            # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "bermudagrass": (6.9, 8.5, 11.0, 15.0),     # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "sudangrass": (2.8, 5.1, 8.6, 14.0),        # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "lovegrass": (2.0, 3.2, 5.0, 8.0),          # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "corn forage": (1.8, 3.2, 5.2, 8.6),        # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "tall wheatgrass": (7.5, 9.9, 13.0, 19.0),  # FAO 29 Table 4 - from memory
     "date palm": (4.0, 6.8, 11.0, 18.0),        # FAO 29 Table 4 - from memory
     "grape": (1.5, 2.5, 4.1, 6.7),              # FAO 29 Table 4 - from memory
-    "orange": (1.7, 2.3, 3.3, 4.8),             # read: FAO 29 Table 4 row as compiled in a public source-code transcription of FAO 29 Table 4 (search tool, code corpus) @03e9676
+    "orange": (1.7, 2.3, 3.3, 4.8),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "almond": (1.5, 2.0, 2.8, 4.1),             # FAO 29 Table 4 - from memory
     "strawberry": (1.0, 1.3, 1.8, 2.5),         # FAO 29 Table 4 - from memory
 }
