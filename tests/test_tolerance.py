@@ -23,7 +23,7 @@ FAO29_TABLE4 = {
     "zucchini": (4.7, 5.8, 7.4, 10.0),          # read: PLoS ONE 2018 Table 3, ref [81]
     "barley": (8.0, 10.0, 13.0, 18.0),          # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "cotton": (7.7, 9.6, 13.0, 17.0),           # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
-    "sugar beet": (7.0, 8.7, 11.0, 15.0),       # FAO 29 Table 4 - from memory
+    "sugar beet": (7.0, 8.7, 11.0, 15.0),       # ECe100 read (FAO 29 Table 4 copy, file id 68728627951); 90/75/50 from memory
     "sorghum": (6.8, 7.4, 8.4, 9.9),            # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "wheat": (6.0, 7.4, 9.5, 13.0),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "soybean": (5.0, 5.5, 6.3, 7.5),            # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
@@ -50,8 +50,8 @@ FAO29_TABLE4 = {
     "lovegrass": (2.0, 3.2, 5.0, 8.0),          # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "corn forage": (1.8, 3.2, 5.2, 8.6),        # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "tall wheatgrass": (7.5, 9.9, 13.0, 19.0),  # FAO 29 Table 4 - from memory
-    "date palm": (4.0, 6.8, 11.0, 18.0),        # FAO 29 Table 4 - from memory
-    "grape": (1.5, 2.5, 4.1, 6.7),              # FAO 29 Table 4 - from memory
+    "date palm": (4.0, 6.8, 11.0, 18.0),        # ECe100 read (file id 68728627951); 90/75/50 from memory
+    "grape": (1.5, 2.5, 4.1, 6.7),              # ECe100 read (file id 68728627951); 90/75/50 from memory
     "orange": (1.7, 2.3, 3.3, 4.8),             # read: FAO 29 Table 4 row as compiled in a public source file copying FAO 29 Table 4 (search tool, code corpus) @03e9676
     "almond": (1.5, 2.0, 2.8, 4.1),             # FAO 29 Table 4 - from memory
     "strawberry": (1.0, 1.3, 1.8, 2.5),         # FAO 29 Table 4 - from memory
@@ -71,6 +71,36 @@ def test_ece_at_yield_matches_fao29_table4(crop):
     got = tol.ece_at_yield(crop, list(YIELDS))
     for y, e, g in zip(YIELDS, expected, got):
         assert abs(g - e) <= _table_tolerance(e), (crop, y, e, float(g))
+
+
+# FAO 29 Table 4 again, its 100 % and 0 % yield-potential columns only, as
+# copied in a public source file of the search tool's code corpus (file id
+# 68728627951, repository not shown; it names fao.org/4/t0234e/t0234e03.htm),
+# read. The 0 % column is threshold + 100/slope, so it checks the slope too.
+FAO29_TABLE4_ENDS = {
+    # crop: (ECe at 100 %, ECe at 0 %)    name in that file
+    "tomato": (2.5, 13.0),                # "Tomato (open field)"
+    "potato": (1.7, 10.0),
+    "cucumber": (2.5, 10.0),
+    "pepper": (1.5, 8.6),                 # "Sweet pepper"
+    "onion": (1.2, 7.4),                  # "Onion (dry)"
+    "corn": (1.7, 10.0),                  # "Maize (grain)"
+    "wheat": (6.0, 20.0),
+    "cotton": (7.7, 27.0),
+    "sugar beet": (7.0, 24.0),
+    "alfalfa": (2.0, 16.0),
+    "grape": (1.5, 12.0),                 # "Table grape"
+    "orange": (1.7, 8.0),                 # "Citrus (with cover)"
+    "date palm": (4.0, 32.0),
+}
+
+
+@pytest.mark.parametrize("crop", sorted(FAO29_TABLE4_ENDS))
+def test_ece_at_full_and_zero_yield_match_fao29_table4(crop):
+    e100, e0 = FAO29_TABLE4_ENDS[crop]
+    got100, got0 = tol.ece_at_yield(crop, [100, 0])
+    assert abs(got100 - e100) <= _table_tolerance(e100), (crop, float(got100))
+    assert abs(got0 - e0) <= _table_tolerance(e0), (crop, float(got0))
 
 
 @pytest.mark.parametrize("crop", sorted(FAO29_TABLE4))
@@ -310,7 +340,9 @@ def test_field_crops_match_fao61_table_a1_1(crop):
 # without a repository name: file id 58552035124 (a salinity module, "FAO-29") and
 # file id 68632044758 (a crop knowledge file, "FAO-29 Table 4"). Each crop
 # below is also in the FAO 29 Table 4 check above except
-# date palm, which rests on these two alone.
+# date palm, which rests on these two alone. File id 71515541170 (a threshold
+# and slope list naming Maas 1990 and FAO 29 and 48) and id 70957189305 (a
+# reference table naming FAO 61 Annex 1, Maas and Grattan 1999) were read too.
 FAO29_LISTS = {
     # crop: (threshold, slope)    where read
     "sorghum": (6.8, 16.0),       # id 58552035124 and id 68632044758
@@ -319,6 +351,8 @@ FAO29_LISTS = {
     "bermudagrass": (6.9, 6.4),   # id 68632044758
     "date palm": (4.0, 3.6),      # id 58552035124 and id 68632044758
     "orange": (1.7, 16.0),        # id 58552035124 ("citrus")
+    "sugar beet": (7.0, 5.9),     # id 71515541170 ("sugar beets")
+    "grape": (1.5, 9.6),          # id 58552035124 and id 70957189305
 }
 
 
@@ -348,15 +382,17 @@ def test_widely_grown_crops_verified_or_say_why_not():
     # verified against two compilations / a primary table, or its note says
     # what was found and what is missing.
     verified = ("wheat", "barley", "cotton", "rice", "corn", "sorghum", "soybean", "alfalfa",
-                "potato", "tomato", "orange", "sunflower", "date palm", "bermudagrass")
+                "potato", "tomato", "orange", "sunflower", "date palm", "bermudagrass",
+                "sugar beet", "grape", "plum")
     for name in verified:
         assert tol.CROPS[name].verified, name
         assert "(read)" in tol.CROPS[name].source, name
-    for name in ("sugar beet", "sugarcane", "grape", "grapefruit"):
+    for name in ("sugarcane", "grapefruit", "durum wheat", "flax", "almond", "peach"):
         c = tol.CROPS[name]
         assert not c.verified, name
         assert "unverified" in c.source, name
-    for name in ("sugarcane", "grape", "sudangrass", "lovegrass"):
+    # one compilation found, the second missing: the note says which
+    for name in ("sugarcane", "sudangrass", "lovegrass", "durum wheat", "flax", "almond", "peach"):
         assert "no second" in tol.CROPS[name].note, name
 
 
@@ -376,12 +412,13 @@ def test_peanut_threshold_against_field_study_abstract():
     assert "33" in c.note and "3.8" in c.note and "4.7" in c.note
 
 
-def test_plum_keeps_compilation_and_names_the_field_study():
+def test_plum_follows_the_primary_study_and_fao61():
     # "Yield and foliar injury responses of mature plum trees to salinity",
     # abstract read at discovery.researcher.life (b50229e0c9f43fc19ec8c2abc0b28ceb):
-    # threshold 2.6 dS/m, 31 %/dS/m. The compilation row is kept (not read, so
-    # unverified) and the study's values are in its note.
+    # threshold 2.6 dS/m, 31 %/dS/m; FAO 61 Annex 1 (Maas and Grattan 1999) as
+    # given in a public plant data file (file id 60889861976, read): 2.6 / 31 / MS.
+    # The recalled older row (1.5 / 18 / S) was never read; the note keeps it.
     c = tol.CROPS["plum"]
-    assert (c.threshold_dS_m, c.slope_pct_per_dS_m) != (2.6, 31.0)
-    assert not c.verified
-    assert "2.6 dS/m" in c.note and "31 %/dS/m" in c.note
+    assert (c.threshold_dS_m, c.slope_pct_per_dS_m, c.tolerance_class) == (2.6, 31.0, "MS")
+    assert c.verified and "(read)" in c.source
+    assert "1.5 dS/m" in c.note and "18 %/dS/m" in c.note
