@@ -3,9 +3,11 @@ tables.
 
 Sources named beside each check:
 * "ISO 7888" = ISO 7888:1985 / EN 27888:1993, table of f25 for natural
-  waters, 0.0-35.9 °C in 0.1 °C steps (read from a reprint of the table).
-  The code stores only whole degrees; the tenth-degree values below are
-  NOT in the code, so they test the interpolation.
+  waters, 0.0-35.9 °C in 0.1 °C steps (read from a reprint of the table,
+  an instrument manual appendix: columns ",0" to ",3" for every row, ",4"
+  to ",6" for rows 0-9; 35.4-35.9 °C were not in the copy read).
+  The code stores the whole degrees and 35.1-35.3 °C; the other tenths
+  below are NOT in the code, so they test the interpolation.
 * "NIST" = Wu, Koch & Pratt 1991, J. Res. NIST 96:191, 0.01 mol/kg KCl, as
   tabulated in the CRC Handbook ("Standard KCl solutions for calibrating
   conductivity cells").
@@ -38,6 +40,9 @@ ISO7888_TENTHS_1_TO_3 = {
     30: (0.902, 0.900, 0.898), 31: (0.884, 0.883, 0.881), 32: (0.867, 0.866, 0.864),
     33: (0.851, 0.850, 0.848), 34: (0.835, 0.834, 0.832),
 }
+# ISO 7888: f25 at 35.1, 35.2, 35.3 °C (same reprint; stored in the code, as
+# the end of the table)
+ISO7888_35_TENTHS = ((35.1, 0.820), (35.2, 0.819), (35.3, 0.817))
 # ISO 7888: f25 at T + 0.4, + 0.5, + 0.6 °C for T = 0..8
 ISO7888_TENTHS_4_TO_6 = {
     0: (1.893, 1.887, 1.881), 1: (1.834, 1.829, 1.822), 2: (1.777, 1.772, 1.766),
@@ -91,7 +96,14 @@ def test_iso7888_roughly_follows_water_viscosity():
         assert tc.iso7888_f25(t) == pytest.approx(ratio, rel=0.06)
 
 
-@pytest.mark.parametrize("temp_c", [-0.1, 35.01, 40.0, -5.0, float("nan")])
+@pytest.mark.parametrize("temp_c,f25", ISO7888_35_TENTHS)
+def test_iso7888_f25_rows_35_1_to_35_3(temp_c, f25):
+    # ISO 7888 (reprint, see top): the table's last rows that were read
+    assert float(tc.iso7888_f25(temp_c)) == pytest.approx(f25, abs=1e-12)
+    assert tc.ISO7888_RANGE_C == (0.0, 35.3)
+
+
+@pytest.mark.parametrize("temp_c", [-0.1, 35.31, 40.0, -5.0, float("nan")])
 def test_iso7888_f25_nan_outside_table(temp_c):
     assert math.isnan(tc.iso7888_f25(temp_c))
 
@@ -143,9 +155,9 @@ def test_to_25_mixed_boolean_array():
     assert out[0] == pytest.approx(1.428, abs=5e-4)   # ISO 7888 f25(10)
     assert out[1] == 1.0                               # meter compensated
     assert out[2] == pytest.approx(1.116, abs=5e-4)   # ISO 7888 f25(20)
-    # beyond the table: ISO 7888's f25(35) = 0.822 carried on by the linear
-    # model (ISO 7888 / APHA 2510 B), 2 %/°C from 35 to 40 °C
-    assert out[3] == pytest.approx(0.822 * 1.2 / 1.3)
+    # beyond the table: ISO 7888's f25(35.3) = 0.817 carried on by the linear
+    # model (ISO 7888 / APHA 2510 B), 2 %/°C from 35.3 to 40 °C
+    assert out[3] == pytest.approx(0.817 * (1 + 0.02 * 10.3) / 1.3)
     labels = tc.applied_method(t, comp)
     assert list(labels) == ["iso7888", "meter", "iso7888", "iso7888_linear_beyond_table"]
 
@@ -266,15 +278,16 @@ def test_iso7888_f25_decreases_with_temperature(t1, t2):
 
 def test_ec25_monotone_and_continuous_across_34_to_37_c():
     # 1 dS/m read at 34-37 °C: EC25 must fall steadily with temperature and
-    # join the ISO 7888 table (f25(35) = 0.822, ISO 7888:1985) without a jump.
-    # The old rule gave 0.822 at 35.0 °C and 0.826 at 35.5 °C.
+    # join the ISO 7888 table (f25(35.3) = 0.817, ISO 7888:1985) without a
+    # jump. The old rule gave 0.822 at 35.0 °C and 0.826 at 35.5 °C.
     t = np.arange(34.0, 37.0001, 0.05)
     ec25 = tc.to_25(np.ones_like(t), t, False)
     assert np.all(np.diff(ec25) < 0)
     assert float(tc.to_25(1.0, 35.0, False)) == pytest.approx(0.822, abs=1e-12)
-    step = float(tc.to_25(1.0, 35.0001, False)) - 0.822
+    assert float(tc.to_25(1.0, 35.3, False)) == pytest.approx(0.817, abs=1e-12)
+    step = float(tc.to_25(1.0, 35.3001, False)) - 0.817
     assert -1e-5 < step < 0
-    assert float(tc.to_25(1.0, 35.5, False)) < 0.822
+    assert float(tc.to_25(1.0, 35.5, False)) < 0.817
 
 
 def test_ec25_monotone_from_0_to_50_c_and_below_zero():
@@ -287,12 +300,13 @@ def test_ec25_monotone_from_0_to_50_c_and_below_zero():
     assert float(tc.iso7888_f25_extended(25.0)) == pytest.approx(1.000)
     # below the table the same anchored linear step: 1.918 x 0.5 / 0.4 at -5 °C
     assert float(tc.iso7888_f25_extended(-5.0)) == pytest.approx(1.918 * 0.5 / 0.4)
-    assert list(tc.applied_method([-1.0, 0.0, 35.0, 35.1], False)) == [
-        "iso7888_linear_beyond_table", "iso7888", "iso7888", "iso7888_linear_beyond_table"]
+    assert list(tc.applied_method([-1.0, 0.0, 35.0, 35.3, 35.4], False)) == [
+        "iso7888_linear_beyond_table", "iso7888", "iso7888", "iso7888",
+        "iso7888_linear_beyond_table"]
 
 
 def test_extension_uses_the_readings_alpha():
     # a user-set coefficient changes only the part beyond the table
     assert float(tc.to_25(1.0, 40.0, False, alpha_per_c=0.0187)) == pytest.approx(
-        0.822 * (1 + 0.0187 * 10) / (1 + 0.0187 * 15))
+        0.817 * (1 + 0.0187 * 10.3) / (1 + 0.0187 * 15))
     assert float(tc.to_25(1.0, 30.0, False, alpha_per_c=0.0187)) == pytest.approx(0.903)

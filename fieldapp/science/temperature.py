@@ -9,8 +9,9 @@ those that do not, the app applies one of two published models:
 * ``iso7888`` - the non-linear factor f25 for natural waters tabulated in
   ISO 7888:1985 (EN 27888:1993). Suited to ground, surface and irrigation
   water and to dilute soil extracts. The standard tabulates 0.0-35.9 °C in
-  0.1 °C steps; the whole-degree values 0-35 °C were read and are stored
-  here (interpolated linearly between them). Beyond the stored table the
+  0.1 °C steps; the whole-degree values 0-35 °C and the rows 35.1-35.3 °C
+  were read and are stored here (interpolated linearly between them; the
+  reprint read does not show 35.4-35.9 °C). Beyond the stored table the
   factor is continued by the linear model anchored at the table's end
   (see :func:`iso7888_f25_extended`), so the result stays continuous and
   monotone from -5 to 60 °C; the result names that method
@@ -34,17 +35,22 @@ from fieldapp.science import InputError
 # ---------------------------------------------------------------------------
 # ISO 7888:1985 non-linear correction for natural waters
 # ---------------------------------------------------------------------------
-#: Temperatures (°C) of the rows of :data:`ISO7888_F25`.
-ISO7888_T_C = np.arange(0.0, 36.0, 1.0)
-#: f25(T) for natural water, EC25 = f25(T) × EC_T, at whole degrees 0..35 °C.
+#: Temperatures (°C) of the rows of :data:`ISO7888_F25`: whole degrees
+#: 0..35, then the read tenth-degree rows 35.1, 35.2, 35.3.
+ISO7888_T_C = np.concatenate([np.arange(0.0, 36.0, 1.0), [35.1, 35.2, 35.3]])
+#: f25(T) for natural water, EC25 = f25(T) × EC_T, at :data:`ISO7888_T_C`.
 #: Source: ISO 7888:1985 (EN 27888:1993), table of f25 for natural waters
-#: (0.0 to 35.9 °C in 0.1 °C steps; the whole-degree column is stored here),
-#: read from a reprint of that table in an instrument manual appendix.
+#: (0.0 to 35.9 °C in 0.1 °C steps), read from a reprint of that table in an
+#: instrument manual appendix (its columns ",0" to ",3" for every row; the
+#: columns ",4" to ",9" of the rows above 9 °C were not in the copy read, so
+#: 35.4-35.9 °C are not stored). The whole-degree column and the 35.1-35.3
+#: row are stored; the other tenths check the interpolation in the tests.
 ISO7888_F25 = np.array([
     1.918, 1.857, 1.800, 1.745, 1.693, 1.643, 1.596, 1.551, 1.508, 1.467,  # 0-9
     1.428, 1.390, 1.354, 1.320, 1.287, 1.256, 1.225, 1.196, 1.168, 1.141,  # 10-19
     1.116, 1.091, 1.067, 1.044, 1.021, 1.000, 0.979, 0.959, 0.940, 0.921,  # 20-29
     0.903, 0.886, 0.869, 0.853, 0.837, 0.822,                              # 30-35
+    0.820, 0.819, 0.817,                                                   # 35.1-35.3
 ])
 #: Range (°C) over which :func:`iso7888_f25` returns a value.
 ISO7888_RANGE_C = (float(ISO7888_T_C[0]), float(ISO7888_T_C[-1]))
@@ -60,7 +66,7 @@ ALPHA_RANGE_PER_C = (0.0, 0.1)
 TEMP_RANGE_C = (-5.0, 60.0)
 
 COMPENSATION_METHODS: dict[str, str] = {
-    "iso7888": "Non-linear natural-water factor of ISO 7888 (table 0-35 °C); beyond the "
+    "iso7888": "Non-linear natural-water factor of ISO 7888 (table 0-35.3 °C); beyond the "
                "table, the linear model continued from the table's end value.",
     "linear": "Linear: EC25 = EC / (1 + α (T − 25)), α set per reading "
               "(default 0.02 per °C).",
@@ -144,8 +150,9 @@ def iso7888_f25(temp_c) -> np.ndarray:
     """ISO 7888 non-linear temperature factor f25 for natural waters.
 
     Equation: EC25 = f25(T) × EC_T, f25 interpolated linearly in
-    :data:`ISO7888_F25` (whole degrees; the standard's 0.1 °C values are
-    reproduced within 0.001, the table's own rounding).
+    :data:`ISO7888_F25` (whole degrees and 35.1-35.3 °C; the standard's
+    other 0.1 °C values are reproduced within 0.001, the table's own
+    rounding).
 
     Parameters
     ----------
@@ -153,7 +160,7 @@ def iso7888_f25(temp_c) -> np.ndarray:
 
     Returns
     -------
-    np.ndarray float64; NaN outside 0-35 °C or for NaN input (the caller
+    np.ndarray float64; NaN outside 0-35.3 °C or for NaN input (the caller
     flags those).
 
     Source: ISO 7888:1985 / EN 27888:1993, "Water quality - Determination of
@@ -171,7 +178,7 @@ def iso7888_f25(temp_c) -> np.ndarray:
 def iso7888_f25_extended(temp_c, alpha_per_c=DEFAULT_ALPHA_PER_C) -> np.ndarray:
     r"""ISO 7888 f25 inside the stored table, continued beyond it by the linear model.
 
-    Equation, with T_end the nearer end of the stored table (0 or 35 °C):
+    Equation, with T_end the nearer end of the stored table (0 or 35.3 °C):
 
     .. math:: f_{25}(T) = f_{25}(T_{end})\,
               \frac{1 + \alpha (T_{end} - 25)}{1 + \alpha (T - 25)}
@@ -195,8 +202,10 @@ def iso7888_f25_extended(temp_c, alpha_per_c=DEFAULT_ALPHA_PER_C) -> np.ndarray:
     --------
     >>> float(iso7888_f25_extended(35.0))
     0.822
+    >>> float(iso7888_f25_extended(35.3))
+    0.817
     >>> round(float(iso7888_f25_extended(36.0)), 4)
-    0.8085
+    0.8076
     """
     t = _arr(temp_c, "temp_c")
     a = _arr(alpha_per_c, "alpha_per_c")
@@ -214,7 +223,7 @@ def iso7888_f25_extended(temp_c, alpha_per_c=DEFAULT_ALPHA_PER_C) -> np.ndarray:
 def iso7888_to_25(ec, temp_c) -> np.ndarray:
     """EC25 = f25(T) × EC_T with the ISO 7888 natural-water factor.
 
-    Same unit in and out; NaN outside 0-35 °C (see :func:`iso7888_f25`).
+    Same unit in and out; NaN outside 0-35.3 °C (see :func:`iso7888_f25`).
     Source: ISO 7888:1985 / EN 27888:1993.
     """
     return np.asarray(_arr(ec, "value") * iso7888_f25(temp_c))
@@ -259,7 +268,7 @@ def to_25(ec, temp_c, compensated, method="iso7888",
     * temperature unknown (NaN) and not compensated: unchanged, i.e. the
       sample is assumed to be at 25 °C; the caller flags it.
     * ``method="iso7888"``: EC25 = f25(T) × EC_T (ISO 7888:1985) within
-      the stored table (0-35 °C); beyond it the linear model with
+      the stored table (0-35.3 °C); beyond it the linear model with
       ``alpha_per_c`` continued from the table's end value
       (:func:`iso7888_f25_extended`; :func:`applied_method` names it).
     * ``method="linear"``: EC25 = EC_T / (1 + α (T − 25)) (ISO 7888;
@@ -293,7 +302,7 @@ def applied_method(temp_c, compensated, method="iso7888") -> np.ndarray:
     Returns an array of strings: "meter" (compensated by the meter),
     "assumed_25" (temperature unknown, value passed through), "iso7888",
     "linear", or "iso7888_linear_beyond_table" (ISO method asked for a
-    temperature beyond the stored table, 0-35 °C: the linear model
+    temperature beyond the stored table, 0-35.3 °C: the linear model
     continued from the table's end value, :func:`iso7888_f25_extended`).
     Labels and sources: ``fieldapp/data/method_labels.csv``.
     """
