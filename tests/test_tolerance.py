@@ -353,7 +353,7 @@ FAO29_LISTS = {
     "orange": (1.7, 16.0),        # id 58552035124 ("citrus")
     "sugar beet": (7.0, 5.9),     # id 71515541170 ("sugar beets")
     "grape": (1.5, 9.6),          # id 58552035124 and id 70957189305
-    "sugarcane": (1.7, 5.9),      # id 66152542144 (a list naming FAO 29; its onion row, 1.3, is off)
+    "sugarcane": (1.7, 5.9),      # id 66152542144 (cited, not counted: its onion row, 1.3, is off)
 }
 
 
