@@ -5,22 +5,8 @@ pairing), each serving its HTML and its JSON. Thin: they call
 from __future__ import annotations
 
 from ..fmt import number as short_number
+from ..lazy import Later  # noqa: F401 - charts, interpret, csvio, records at first use
 from .db import get_db, open_read_connection  # noqa: F401 - the request's connection
-
-
-class Later:
-    """A module imported at its first use, not when the app starts: the
-    routes that draw charts, read a site's meaning, convert or export load
-    their modules on the first request that needs them (the cold start pays
-    only for the entry page). ``charts = Later("fieldapp.charts")``, then
-    ``charts.trend_svg(...)``; the import system's lock makes it thread-safe."""
-
-    def __init__(self, name: str):
-        self._name = name
-
-    def __getattr__(self, attr):
-        import importlib
-        return getattr(importlib.import_module(self._name), attr)
 
 
 def num(x, digits: int = 4) -> str:
