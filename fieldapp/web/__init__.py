@@ -42,8 +42,9 @@ def init_app(app) -> None:
     /api/calibrations) and views (a site's summary, its report, the map,
     /api/targets), and office (sync: /api/sync/* at the office, /office, and
     /send on a device)."""
-    from . import db, errors, meters, office, pairing, readings, security, sites, views
-    db.init_app(app)
+    from . import db
+    check = db.start(app)     # SQLite's check of the file runs while the rest is built
+    from . import errors, meters, office, pairing, readings, security, sites, views
     register_filters(app)
     errors.register(app)
     security.init_app(app)
@@ -51,3 +52,4 @@ def init_app(app) -> None:
     for module in (readings, sites, meters, views):
         app.register_blueprint(module.bp)
     office.init_app(app)      # sync with an office: /api/sync (office), /send (device)
+    db.finish(app, check)     # a refused log stops the start here
