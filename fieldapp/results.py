@@ -14,7 +14,7 @@ import math
 from .lazy import Later
 from .science import tolerance
 
-# At the first result, not at the start: the page of cautions (CAUTIONS) needs no numpy.
+# At the first result, not at the start: the entry page reads only CAUTIONS here, no numpy.
 osmotic = Later("fieldapp.science.osmotic")
 
 #: Shown wherever results are shown: the estimates can drive costly decisions.
