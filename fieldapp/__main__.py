@@ -18,7 +18,7 @@ def _data_dir(a):
 
 def cmd_serve(a) -> int:
     import waitress
-    from . import create_app, demo, store
+    from . import create_app, store
     from .web.pairing import start_lan
     from .web.security import binds_to_network
     bind = a.host or ("0.0.0.0" if a.lan else "127.0.0.1")
@@ -33,6 +33,7 @@ def cmd_serve(a) -> int:
     if app.config.get("LOG_READ_ONLY"):
         print(f"fieldapp: READ-ONLY. {app.config['LOG_READ_ONLY']}", flush=True)
     elif a.demo:
+        from . import demo       # converts its readings: numpy, only when asked for
         conn = store.connect(app.config["DATABASE"])
         try:
             n = demo.load(conn)

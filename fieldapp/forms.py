@@ -15,10 +15,12 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
-from .science import InputError, extracts, temperature, tolerance, units
+from .lazy import Later
+from .lazy import numpy as np  # imported at the first np.name: a faster start
+from .science import InputError, extracts, tolerance, units
 from .science.extracts import MAX_RATIO_N
+
+temperature = Later("fieldapp.science.temperature")   # its tables are numpy arrays
 
 # --------------------------------------------------------------------------
 # Numbers and words

@@ -14,9 +14,12 @@ import statistics
 
 from . import store
 from .data import load_table
-from .science import InputError, temperature, units
+from .science import InputError, units
 from .fmt import number
 from .forms import parse_number
+from .lazy import Later
+
+temperature = Later("fieldapp.science.temperature")   # its tables are numpy arrays
 
 #: Default tolerance of a calibration check, % of the expected value. Common
 #: practice: pocket meters state about ±2 %; a check off by more than 5 % means

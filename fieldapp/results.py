@@ -11,7 +11,11 @@ from __future__ import annotations
 
 import math
 
-from .science import osmotic, tolerance
+from .lazy import Later
+from .science import tolerance
+
+# At the first result, not at the start: the entry page reads only CAUTIONS here, no numpy.
+osmotic = Later("fieldapp.science.osmotic")
 
 #: Shown wherever results are shown: the estimates can drive costly decisions.
 CAUTIONS = (

@@ -45,6 +45,18 @@ def _bad(message: str) -> int:
     return EXIT_BAD_INPUT
 
 
+def _sync_refused(e: Exception) -> int | None:
+    """The status for a sync refused or cut off (nothing confirmed is lost), or
+    None for any other error. A SyncError can only come from a loaded
+    fieldapp.sync, so the other commands, ``serve`` among them, start without
+    importing it (http.client, ssl)."""
+    sync = sys.modules.get("fieldapp.sync")
+    if sync is None or not isinstance(e, sync.SyncError):
+        return None
+    _bad(e.message)
+    return EXIT_BAD_INPUT if e.bad_input or e.status in (400, 403) else 1
+
+
 class FieldappGroup(click.Group):
     """A click group whose errors are one line and status 2, whether it is run
     as a program or in-process by click's test runner."""
@@ -52,7 +64,6 @@ class FieldappGroup(click.Group):
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True,
              **extra):
         from ..store import StoreError
-        from ..sync import SyncError
         try:
             rv = super().main(args, prog_name=prog_name or "fieldapp",
                               complete_var=complete_var, standalone_mode=False, **extra)
@@ -73,9 +84,6 @@ class FieldappGroup(click.Group):
             code = 130
         except (InputError, StoreError) as e:
             code = _bad(e.message)
-        except SyncError as e:          # refused or cut off: nothing confirmed is lost
-            _bad(e.message)
-            code = EXIT_BAD_INPUT if e.bad_input or e.status in (400, 403) else 1
         except sqlite3.DatabaseError as e:     # one line, never a traceback, on a damaged log
             if hasattr(e, "sqlstate"):         # an office database on PostgreSQL (store/pg.py)
                 code = _bad(f"the office database refused the request or did not answer ({e}).")
@@ -85,6 +93,10 @@ class FieldappGroup(click.Group):
                             "restore --data DIR FILE).")
         except KeyboardInterrupt:
             code = 130
+        except Exception as e:
+            code = _sync_refused(e)
+            if code is None:
+                raise
         if standalone_mode:
             sys.exit(code)
         return code

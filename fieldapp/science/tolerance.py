@@ -18,7 +18,7 @@ import math
 import re
 from dataclasses import dataclass
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from . import InputError
 from ..data import load_table

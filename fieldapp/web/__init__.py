@@ -5,22 +5,8 @@ pairing), each serving its HTML and its JSON. Thin: they call
 from __future__ import annotations
 
 from ..fmt import number as short_number
+from ..lazy import Later  # noqa: F401 - charts, interpret, csvio, records at first use
 from .db import get_db, open_read_connection  # noqa: F401 - the request's connection
-
-
-class Later:
-    """A module imported at its first use, not when the app starts: the
-    routes that draw charts, read a site's meaning, convert or export load
-    their modules on the first request that needs them (the cold start pays
-    only for the entry page). ``charts = Later("fieldapp.charts")``, then
-    ``charts.trend_svg(...)``; the import system's lock makes it thread-safe."""
-
-    def __init__(self, name: str):
-        self._name = name
-
-    def __getattr__(self, attr):
-        import importlib
-        return getattr(importlib.import_module(self._name), attr)
 
 
 def num(x, digits: int = 4) -> str:
@@ -56,8 +42,9 @@ def init_app(app) -> None:
     /api/calibrations) and views (a site's summary, its report, the map,
     /api/targets), and office (sync: /api/sync/* at the office, /office, and
     /send on a device)."""
-    from . import db, errors, meters, office, pairing, readings, security, sites, views
-    db.init_app(app)
+    from . import db
+    check = db.start(app)     # SQLite's check of the file runs while the rest is built
+    from . import errors, meters, office, pairing, readings, security, sites, views
     register_filters(app)
     errors.register(app)
     security.init_app(app)
@@ -65,3 +52,4 @@ def init_app(app) -> None:
     for module in (readings, sites, meters, views):
         app.register_blueprint(module.bp)
     office.init_app(app)      # sync with an office: /api/sync (office), /send (device)
+    db.finish(app, check)     # a refused log stops the start here

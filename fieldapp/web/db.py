@@ -2,7 +2,8 @@
 
 ``get_db()`` opens the request's connection on first use and ``close_db()``
 closes it when the request ends; ``init_app(app)`` checks and migrates the log
-once at start (``open_log_at_start``) and installs both. ``init_db(path)``
+once at start (``open_log_at_start``, in a thread while the rest of the app is
+built: ``start`` and ``finish``) and installs both. ``init_db(path)``
 creates a log or brings its schema up to date, for ``fieldapp init-db``.
 SQL itself lives in ``fieldapp.store``; nothing here builds a query.
 
@@ -162,11 +163,45 @@ def _log_problem() -> dict:
     return {"log_problem": current_app.config.get("LOG_READ_ONLY")}
 
 
+class _LogCheck:
+    """:func:`open_log_at_start` in a thread of its own. SQLite's quick_check
+    reads every page of the file (some 60 ms at 10,000 readings, more as the
+    log grows) without holding Python's lock, so it runs while the rest of the
+    web layer is imported and its routes compiled. :meth:`result` waits for
+    it and returns, or raises, exactly what the call itself would."""
+
+    def __init__(self, db_path: str):
+        import threading
+        self._path, self._value, self._error = db_path, None, None
+        # not a daemon: a migration under way is finished before the process exits
+        self._thread = threading.Thread(target=self._run, name="fieldapp-log-check")
+        self._thread.start()
+
+    def _run(self) -> None:
+        try:
+            self._value = open_log_at_start(self._path)
+        except BaseException as e:      # handed to the thread that waits
+            self._error = e
+
+    def result(self) -> str | None:
+        self._thread.join()
+        if self._error is not None:
+            raise self._error
+        return self._value
+
+
 def init_app(app) -> None:
-    """Open the log in ``DATA_DIR`` (made if missing), check and migrate it
-    (``LOG_READ_ONLY`` says why writes are refused, or None), close each
-    request's connection at teardown, refuse writes to a read-only log (503)
-    and name its problem to every page (``log_problem``).
+    """:func:`start` and :func:`finish` together."""
+    finish(app, start(app))
+
+
+def start(app) -> _LogCheck | None:
+    """Open the log in ``DATA_DIR`` (made if missing) and begin checking and
+    migrating it (``finish`` waits for that and sets ``LOG_READ_ONLY``: why
+    writes are refused, or None); close each request's connection at
+    teardown, refuse writes to a read-only log (503) and name its problem to
+    every page (``log_problem``). These hooks come first, before the other
+    request checks.
 
     With config ``DB`` (a ``postgresql://`` URL) the log is that database:
     checked and migrated here, then served through a connection pool
@@ -180,10 +215,8 @@ def init_app(app) -> None:
         app.config["LOG_READ_ONLY"] = None
         app.extensions["fieldapp_pool"] = pg.Pool(
             url, min_size=1, max_size=int(app.config.get("POOL_SIZE", 12)))
-        app.teardown_appcontext(close_db)
-        app.before_request(_refuse_writes_when_read_only)
-        app.context_processor(_log_problem)
-        return
+        _install_hooks(app)
+        return None
     if url:
         raise store.StoreError(f"--db takes a postgresql://USER@HOST:PORT/DATABASE URL, not "
                                f"{url!r} (a SQLite log is chosen with --data DIR).", "db")
@@ -191,7 +224,19 @@ def init_app(app) -> None:
     data_dir = Path(app.config["DATA_DIR"])
     data_dir.mkdir(parents=True, exist_ok=True)
     app.config["DATABASE"] = str(data_dir / store.DB_NAME)
-    app.config["LOG_READ_ONLY"] = open_log_at_start(app.config["DATABASE"])
+    check = _LogCheck(app.config["DATABASE"])
+    _install_hooks(app)
+    return check
+
+
+def finish(app, check: _LogCheck | None) -> None:
+    """Wait for the check begun by :func:`start`; its refusal (a StoreError)
+    stops the start here, before the app is handed out."""
+    if check is not None:
+        app.config["LOG_READ_ONLY"] = check.result()
+
+
+def _install_hooks(app) -> None:
     app.teardown_appcontext(close_db)
     app.before_request(_refuse_writes_when_read_only)
     app.context_processor(_log_problem)

@@ -25,12 +25,14 @@ import threading
 from flask import Blueprint, abort, current_app, jsonify, render_template, request
 
 from .. import store
-from .. import sync as syncmod
+from ..lazy import Later
 from .db import get_db
 from .helpers import json_body, site_by_id
 from .pairing import (DEVICES_PER_CODE, _limiter, current_code, format_code, matching_code,
                       new_code, normalize_code, token_digest)
 from .security import is_laptop
+
+syncmod = Later("fieldapp.sync")      # http.client, ssl: at the first sync, not at the start
 
 bp = Blueprint("office", __name__)
 

@@ -8,7 +8,7 @@ from flask import (Blueprint, Response, current_app, g, jsonify, render_template
 
 from .. import labels, store
 from .. import sites as sitecfg
-from ..science import extracts, osmotic, tolerance, units
+from ..science import extracts, tolerance, units
 from ..results import CAUTIONS
 from . import Later
 from .db import get_db, open_read_connection
@@ -16,6 +16,7 @@ from .helpers import api_date, json_body, max_age_days, paged
 
 csvio = Later("fieldapp.csvio")
 records = Later("fieldapp.records")
+osmotic = Later("fieldapp.science.osmotic")     # its tables are numpy arrays
 
 bp = Blueprint("readings", __name__)
 

@@ -14,13 +14,14 @@ from markupsafe import Markup
 
 from .. import meters, store
 from .. import sites as sitecfg
-from ..science import InputError, extracts, osmotic, tolerance
+from ..science import InputError, extracts, tolerance
 from . import Later
 from .db import get_db
 from .helpers import max_age_days, site_by_id
 
 charts = Later("fieldapp.charts")
 interpret = Later("fieldapp.interpret")
+osmotic = Later("fieldapp.science.osmotic")     # its tables are numpy arrays
 
 bp = Blueprint("views", __name__)
 

@@ -1,6 +1,6 @@
 """Benchmark: how soon a page is usable on a slow tablet.
 
-    .venv/bin/python tests/benchmarks/bench_tablet.py [--repeat 7] [--rate 4]
+    .venv/bin/python tests/benchmarks/bench_tablet.py [--repeat 7] [--rate 4] [--before TREE]
 
 Headless Chromium (/usr/bin/chromium, through Playwright) at 800x1280 with
 the CPU slowed ``--rate`` times through CDP (Emulation.setCPUThrottlingRate),
@@ -20,6 +20,10 @@ only, no CSS, no script) of the same byte size as everything the page loads
 Also printed, to see where the time goes: the bytes per kind, and Chromium's
 own counters after the load (Performance.getMetrics: script, style, layout
 and task seconds, under the throttle). Figures only; nothing passes or fails.
+
+``--before TREE`` serves the same readings from another checkout's fieldapp
+(an older commit, e.g. from ``git archive``) and visits its pages in turn with
+this one's and the floor's, so a before and after come from one run.
 """
 from __future__ import annotations
 
@@ -28,6 +32,7 @@ import http.server
 import json
 import os
 import statistics
+import subprocess
 import sys
 import tempfile
 import threading
@@ -135,16 +140,42 @@ def _summary(runs) -> dict:
     return out
 
 
-def measure(browser, url, floor_url, rate, repeat) -> tuple[dict, dict]:
-    """(the page, its floor): visits alternate, so a busy machine slows both alike."""
-    runs, floors = [], []
+class TreeServer(ServerProcess):
+    """``python -P -m fieldapp serve`` from another checkout (-P: this folder's
+    fieldapp never shadows the tree's)."""
+
+    def __init__(self, tree: Path, data_dir: Path):
+        super().__init__(data_dir)
+        self.tree = Path(tree)
+
+    def start(self, timeout=60):
+        self.proc = subprocess.Popen(
+            [sys.executable, "-P", "-m", "fieldapp", "serve", "--port", str(self.port),
+             "--data", str(self.data_dir)], stdout=subprocess.DEVNULL,
+            stderr=subprocess.STDOUT, env=dict(os.environ, PYTHONPATH=str(self.tree)),
+            cwd=self.tree)
+        for _ in range(int(timeout * 10)):
+            try:
+                urllib.request.urlopen(self.url + "/api/sites", timeout=1).read()
+                return self
+            except OSError:
+                if self.proc.poll() is not None:
+                    raise RuntimeError(f"the server of {self.tree} exited")
+                threading.Event().wait(0.1)
+        raise RuntimeError("server did not start")
+
+
+def measure(browser, urls, rate, repeat) -> list[dict]:
+    """One summary per URL (the page, its floor, the page before): visits
+    alternate, so a busy machine slows them alike."""
+    runs = [[] for _ in urls]
     for _ in range(repeat):
-        runs.append(visit(browser, url, rate))
-        floors.append(visit(browser, floor_url, rate))
-    return _summary(runs), _summary(floors)
+        for out, url in zip(runs, urls):
+            out.append(visit(browser, url, rate))
+    return [_summary(r) for r in runs]
 
 
-def _report(label, got, floor, target_ms):
+def _report(label, got, floor, target_ms, before=None):
     print(f"{label}")
     print(f"  usable after {got['usable_ms']:6.0f} ms (fastest {got['min_ms']:.0f}; FCP "
           f"{got['fcp_ms']:.0f}, DOMContentLoaded {got['dcl_ms']:.0f}, load "
@@ -152,6 +183,10 @@ def _report(label, got, floor, target_ms):
     print(f"  floor: bare static page of {floor['html_bytes'] / 1024:.1f} KB "
           f"{floor['usable_ms']:6.0f} ms (fastest {floor['min_ms']:.0f})   ratio "
           f"{got['usable_ms'] / floor['usable_ms']:.2f}x")
+    if before is not None:
+        print(f"  before (--before): {before['usable_ms']:6.0f} ms (fastest {before['min_ms']:.0f}; "
+              f"FCP {before['fcp_ms']:.0f}, DOMContentLoaded {before['dcl_ms']:.0f})   ratio "
+              f"{before['usable_ms'] / floor['usable_ms']:.2f}x")
     kinds = {}
     for r in got["resources"]:
         kinds[r["kind"]] = kinds.get(r["kind"], 0) + r["bytes"]
@@ -168,6 +203,8 @@ def main(argv=None) -> int:
     p = argparse.ArgumentParser(prog="bench_tablet")
     p.add_argument("--repeat", type=int, default=7)
     p.add_argument("--rate", type=float, default=4)
+    p.add_argument("--before", metavar="TREE", help="another checkout's fieldapp, visited "
+                   "in turn for a before/after in the same run")
     a = p.parse_args(argv)
     if not os.path.exists(CHROMIUM):
         print(f"no Chromium at {CHROMIUM}")
@@ -175,11 +212,14 @@ def main(argv=None) -> int:
     from playwright.sync_api import sync_playwright
     with tempfile.TemporaryDirectory(prefix="fieldapp-tablet-") as d:
         srv = ServerProcess(Path(d) / "log").start(timeout=60)
+        old = TreeServer(a.before, Path(d) / "before").start() if a.before else None
         floor_dir = Path(d) / "floor"
         floor_dir.mkdir()
         bare, port = bare_server(floor_dir)
         try:
             site_id = seventeen_readings(srv.url)
+            if old is not None and seventeen_readings(old.url) != site_id:
+                raise RuntimeError("the two logs gave the site different ids")
             with sync_playwright() as pw:
                 b = pw.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS,
                                        headless=True)
@@ -192,13 +232,18 @@ def main(argv=None) -> int:
                     visit(b, srv.url + path, a.rate)                      # warm the server
                     size = _summary([visit(b, srv.url + path, a.rate)])["total_bytes"]
                     name = bare_page(floor_dir, f"floor{target}.html", size)
-                    got, floor = measure(b, srv.url + path, f"http://127.0.0.1:{port}/{name}",
-                                         a.rate, a.repeat)
-                    _report(label, got, floor, target)
+                    urls = [srv.url + path, f"http://127.0.0.1:{port}/{name}"]
+                    if old is not None:
+                        visit(b, old.url + path, a.rate)
+                        urls.append(old.url + path)
+                    got, floor, *before = measure(b, urls, a.rate, a.repeat)
+                    _report(label, got, floor, target, before[0] if before else None)
                 b.close()
         finally:
             bare.shutdown()
             srv.stop()
+            if old is not None:
+                old.stop()
     return 0
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from .. import InputError
 from .kinds import check_ratio_n

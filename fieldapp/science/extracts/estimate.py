@@ -1,7 +1,7 @@
 """Saturated-paste ECe equivalent of a reading by the best available route."""
 from __future__ import annotations
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from .. import InputError
 from .dilution import (PASTE_UNCERTAINTY_PCT, PASTE_UNCERTAINTY_SOURCE,

@@ -4,7 +4,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 
 @dataclass(frozen=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from .dilution import (ESTIMATE_CAUTION, SP_DILUTION_UNCERTAINTY_PCT,
                        SP_DILUTION_UNCERTAINTY_SOURCE, ece_sp_dilution)

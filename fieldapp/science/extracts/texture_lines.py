@@ -2,7 +2,7 @@
 Slavich and Petterson (1993) for 1:5, Hogg and Henry (1984) for 1:1 and 1:2."""
 from __future__ import annotations
 
-import numpy as np
+from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from .kinds import check_ratio_n
 from .regressions import REGRESSIONS, Regression, _same_ratio
