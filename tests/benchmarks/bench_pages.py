@@ -1,9 +1,12 @@
 """Benchmark: size and time of every page and API list on a large log.
 
-    .venv/bin/python tests/benchmarks/bench_pages.py [N_READINGS] [slips]
+    .venv/bin/python tests/benchmarks/bench_pages.py [N_READINGS] [slips] [--cache DIR]
 
-Builds a log of N invented readings over 40 sites (default 200,000;
-`bench.make_log`, one executemany), starts `serve` on 127.0.0.1 and fetches
+Takes a log of N invented readings over 40 sites (default 200,000;
+`bench.make_log`, one executemany) from the benchmark cache (default: the
+system's temporary folder / fieldapp-bench-cache, the folder and the
+function bench_csv.py uses, so a log built by either is built once), starts
+`serve` on 127.0.0.1 and fetches
 each page and API list 3 times, printing the response size and the median
 time (loopback, so nearly all of it is server time). Floor, same server,
 same run: GET /api/readings/<uuid> (one stored reading through the same
@@ -26,6 +29,38 @@ sys.path.insert(0, str(ROOT / "tests"))
 from conftest import ServerProcess            # noqa: E402
 from fieldapp import store             # noqa: E402
 import bench  # noqa: E402  (tests/benchmarks/bench.py)
+import bench_csv  # noqa: E402  (tests/benchmarks/bench_csv.py: the shared cache)
+
+
+def _wait_for_another_build(folder: Path, patience_s: float = 1800) -> None:
+    """Another benchmark may be building the same cached log right now (its
+    folder is there, built.json not yet): wait for it rather than remove the
+    folder under it. A folder untouched for two minutes is a dead build."""
+    t0 = time.perf_counter()
+    while folder.exists() and not (folder / "built.json").exists():
+        newest = max((p.stat().st_mtime for p in folder.iterdir()), default=0)
+        if time.time() - newest > 120 or time.perf_counter() - t0 > patience_s:
+            return
+        time.sleep(5)
+
+
+def cached_log(cache: Path, n: int, slips: bool) -> Path:
+    """bench_csv.cached_log's log of n readings; with ``slips`` its twin in a
+    folder of its own beside it (same naming, same built.json marker)."""
+    folder = cache / (f"log-{n}-{bench_csv._schema_key()}" + ("-slips" if slips else ""))
+    _wait_for_another_build(folder)
+    if not slips:
+        return bench_csv.cached_log(cache, n)
+    if not (folder / "built.json").exists():
+        import json
+        import shutil
+        shutil.rmtree(folder, ignore_errors=True)
+        t0 = time.perf_counter()
+        bench.make_log(folder, n, slips=True)
+        (folder / "built.json").write_text(
+            json.dumps({"n": n, "slips": True, "build_s": time.perf_counter() - t0}))
+        print(f"  (built a log of {n:,} readings with slips in {time.perf_counter() - t0:.0f} s)")
+    return folder / store.DB_NAME
 
 
 def fetch(port, path, n=3):
@@ -44,35 +79,40 @@ def fetch(port, path, n=3):
 
 
 def main():
-    n = int(sys.argv[1]) if len(sys.argv) > 1 else 200_000
-    slips = "slips" in sys.argv[2:]
-    with tempfile.TemporaryDirectory() as d:
-        t0 = time.perf_counter()
-        db, _ = bench.make_log(Path(d) / "log", n, slips=slips)
-        conn = store.connect(db)
-        uuid = conn.execute("SELECT uuid FROM readings ORDER BY id DESC LIMIT 1").fetchone()[0]
-        per_site = conn.execute("SELECT COUNT(*) FROM readings WHERE site_id = 1").fetchone()[0]
-        conn.close()
-        print(f"log of {n:,} readings over 40 sites ({per_site:,} at site 1"
-              + (", 1 in 41 with an error flag" if slips else "")
-              + f"), built in {time.perf_counter() - t0:.0f} s")
-        srv = ServerProcess(Path(d) / "log").start(timeout=120)
-        try:
-            ft, fs, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
-            print(f"{'floor: GET /api/readings/<uuid>':44s} {fs / 1024:8.1f} KB {ft * 1000:8.1f} ms")
-            _, _, _, page = fetch(srv.port, "/sites/1", 1)
-            older = re.search(rb'id="older-readings" rel="next" href="([^"]+)"', page)
-            paths = ["/", "/sites", "/sites/1",
-                     older.group(1).decode().replace("&amp;", "&") if older else None,
-                     "/sites/1/report", "/map", "/meters", "/api/readings",
-                     "/api/readings?site=Block%201", "/api/readings?limit=100",
-                     "/api/sites", "/api/sites/1/summary"]
-            for p in filter(None, paths):
-                t, size, h, _ = fetch(srv.port, p)
-                mark = "" if size < 250 * 1024 and t < 0.150 else "   (over target)"
-                print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms{mark}")
-        finally:
-            srv.stop()
+    args = sys.argv[1:]
+    cache = Path(tempfile.gettempdir()) / "fieldapp-bench-cache"
+    if "--cache" in args:
+        cache = Path(args.pop(args.index("--cache") + 1))
+        args.remove("--cache")
+    n = int(args[0]) if args and args[0].isdigit() else 200_000
+    slips = "slips" in args
+    cache.mkdir(parents=True, exist_ok=True)
+    t0 = time.perf_counter()
+    db = cached_log(cache, n, slips)
+    conn = store.connect(db)
+    uuid = conn.execute("SELECT uuid FROM readings ORDER BY id DESC LIMIT 1").fetchone()[0]
+    per_site = conn.execute("SELECT COUNT(*) FROM readings WHERE site_id = 1").fetchone()[0]
+    conn.close()
+    print(f"log of {n:,} readings over 40 sites ({per_site:,} at site 1"
+          + (", 1 in 41 with an error flag" if slips else "")
+          + f"), ready in {time.perf_counter() - t0:.0f} s: {db}")
+    srv = ServerProcess(db.parent).start(timeout=120)
+    try:
+        ft, fs, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
+        print(f"{'floor: GET /api/readings/<uuid>':44s} {fs / 1024:8.1f} KB {ft * 1000:8.1f} ms")
+        _, _, _, page = fetch(srv.port, "/sites/1", 1)
+        older = re.search(rb'id="older-readings" rel="next" href="([^"]+)"', page)
+        paths = ["/", "/sites", "/sites/1",
+                 older.group(1).decode().replace("&amp;", "&") if older else None,
+                 "/sites/1/report", "/map", "/meters", "/api/readings",
+                 "/api/readings?site=Block%201", "/api/readings?limit=100",
+                 "/api/sites", "/api/sites/1/summary"]
+        for p in filter(None, paths):
+            t, size, h, _ = fetch(srv.port, p)
+            mark = "" if size < 250 * 1024 and t < 0.150 else "   (over target)"
+            print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms{mark}")
+    finally:
+        srv.stop()
 
 
 if __name__ == "__main__":
