@@ -18,12 +18,18 @@ FEED_LEACHATE_KEYS = 50
 
 
 def site_rows(conn, site_id: int, as_of: str | None = None,
-              keep_day: str | None = None) -> dict:
+              keep_day: str | None = None, cache=None) -> dict:
     """What the site views of one site read, up to ``as_of``: the counts,
     the rows of each part of the summary, the feed/leachate days, the
     profile's rows and each chart series' candidates (``keep_day``: the day
-    whose points a report keeps)."""
-    tot = day_totals(conn, site_id, as_of)
+    whose points a report keeps). ``cache``: a :class:`site_views.SiteCache`
+    that keeps the day totals and flagged readings between calls."""
+    if cache is not None:
+        every_day, every_flagged = cache.site(conn, site_id)
+        tot = [t for t in every_day if as_of is None or t["day"] <= as_of]
+        flagged = [dict(r) for r in every_flagged if as_of is None or r["taken_at"][:10] <= as_of]
+    else:
+        tot, flagged = day_totals(conn, site_id, as_of), None
     out = {"n_readings": reading_count(conn, site_id), "n_current": sum(t["n"] for t in tot),
            "last_date": max((t["day"] for t in tot), default=None)}
     valued = [t for t in tot if t["n_y"]]
@@ -37,7 +43,8 @@ def site_rows(conn, site_id: int, as_of: str | None = None,
     out["substrate"] = [r for r in rows if r["sample"] in SUBSTRATE]
     out["profile"] = [r for r in out["soil"] if r["depth_cm"] is not None]
     out["greenhouse_days"] = _feed_leachate_days(conn, site_id, valued)
-    out["soil_series"], out["sol_series"] = _chart_series(conn, site_id, valued, as_of, keep_day)
+    out["soil_series"], out["sol_series"] = _chart_series(conn, site_id, valued, as_of, keep_day,
+                                                          flagged)
     return out
 
 
@@ -106,7 +113,7 @@ def _feed_leachate_days(conn, site_id: int, valued: list[dict]) -> list[dict]:
     return days
 
 
-def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
+def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day, flagged=None):
     """Each chart series as (depth or kind, candidate rows, n): a series up to
     :data:`MOST_POINTS` readings whole, a longer one as the readings holding
     each time bucket's lowest and highest value (the first of each, by time),
@@ -125,7 +132,9 @@ def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
     rows = picked_rows(conn, site_id, picks, keys_only=True)
     if any(n > MOST_POINTS for n in sizes.values()):
         seen = {r["id"] for r in rows}
-        rows += [r for r in flagged_rows(conn, site_id, as_of) if r["id"] not in seen]
+        if flagged is None:
+            flagged = flagged_rows(conn, site_id, as_of)
+        rows += [r for r in flagged if r["id"] not in seen]
         rows.sort(key=lambda r: (r["taken_at"], r["id"]))
     soil = [(k[1], [r for r in rows if r["sample"] in SOIL and r["depth_cm"] == k[1]
                     and r["ece_dS_m"] is not None], sizes[k])

@@ -61,16 +61,33 @@ def _before(as_of: str | None) -> tuple[str, tuple]:
     return ("", ()) if as_of is None else (" AND substr(r.taken_at, 1, 10) <= ?", (as_of,))
 
 
-def day_totals(conn, site_id: int, as_of: str | None = None) -> list[dict]:
+def _ids(ids: tuple | None) -> tuple[str, tuple]:
+    """Readings with ``ids[0] < id <= ids[1]`` (``ids[0]`` None: from the first)."""
+    if ids is None:
+        return "", ()
+    lo, hi = ids
+    if lo is None:   # "+ 0": not a range SQLite would walk the (site_id, id) index for
+        return " AND r.id + 0 <= ?", (hi,)
+    return " AND r.id > ? AND r.id <= ?", (lo, hi)
+
+
+def day_totals(conn, site_id: int, as_of: str | None = None,
+               ids: tuple | None = None) -> list[dict]:
     """For each sample kind, depth and day (up to ``as_of``): how many current
     readings (``n``), how many with a value (``n_y``) and their lowest,
-    highest and mean value (ECe for soil, EC at 25 °C for solutions)."""
+    highest, summed and mean value (ECe for soil, EC at 25 °C for
+    solutions). ``ids``: of the readings in that range of ids only
+    (:func:`_ids`; what :class:`SiteCache` counts or adds to totals it holds)."""
     cond, args = _before(as_of)
+    cond2, args2 = _ids(ids)
     sql = (f"SELECT r.sample, r.depth_cm, substr(r.taken_at, 1, 10) AS day, COUNT(*) AS n, "
-           f"COUNT({_Y}) AS n_y, MIN({_Y}) AS lo, MAX({_Y}) AS hi, AVG({_Y}) AS mean "
-           f"FROM readings r WHERE r.site_id = ?{cond} AND {_CURRENT} "
+           f"COUNT({_Y}) AS n_y, MIN({_Y}) AS lo, MAX({_Y}) AS hi, SUM({_Y}) AS total "
+           f"FROM readings r WHERE r.site_id = ?{cond}{cond2} AND {_CURRENT} "
            f"GROUP BY r.sample, r.depth_cm, substr(r.taken_at, 1, 10) ORDER BY day")
-    return [dict(zip(row.keys(), row)) for row in conn.execute(sql, (site_id, *args))]
+    out = [dict(zip(row.keys(), row)) for row in conn.execute(sql, (site_id, *args, *args2))]
+    for t in out:
+        t["mean"] = t["total"] / t["n_y"] if t["n_y"] else None
+    return out
 
 
 def reading_count(conn, site_id: int) -> int:
@@ -120,16 +137,19 @@ def picked_rows(conn, site_id: int, picks, keys_only: bool = False) -> list[dict
     return _with_flags(conn, sorted(found.values(), key=lambda r: (r["taken_at"], r["id"])))
 
 
-def flagged_rows(conn, site_id: int, as_of: str | None = None) -> list[dict]:
-    """Current readings with a value (up to ``as_of``) that carry a warning or
-    an error, as chart points (``_KEY_COLS``): a chart keeps every one."""
+def flagged_rows(conn, site_id: int, as_of: str | None = None,
+                 ids: tuple | None = None) -> list[dict]:
+    """Current readings with a value (up to ``as_of``; in ``ids``, :func:`_ids`)
+    that carry a warning or an error, as chart points (``_KEY_COLS``): a
+    chart keeps every one."""
     cond, args = _before(as_of)
+    cond2, args2 = _ids(ids)
     sql = (f"SELECT {_KEY_COLS} FROM readings r "
-           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond} AND r.flags <> '' "
-           f"AND {_Y} IS NOT NULL AND {_CURRENT} "
+           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond}{cond2} "
+           f"AND r.flags <> '' AND {_Y} IS NOT NULL AND {_CURRENT} "
            f"AND EXISTS (SELECT 1 FROM reading_flags f WHERE f.reading_id = r.id "
            f"AND f.severity IN ('warning', 'error'))")
-    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args))]
+    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args, *args2))]
     return _with_flags(conn, sorted(rows, key=lambda r: (r["taken_at"], r["id"])))
 
 
@@ -149,3 +169,79 @@ def _with_flags(conn, rows: list[dict]) -> list[dict]:
         r["flag_list"] = [{"code": c, "severity": sev[r["id"]].get(c)} for c in r["flags"]]
         r["status"] = "current"
     return rows
+
+
+# ---------------------------------------------------------------- kept between requests
+
+def log_state(conn, site_id: int) -> tuple:
+    """What tells whether a site's current readings changed: its newest
+    reading id, and how many voids and corrections the log holds (a void or a
+    correction takes a reading out of "current"; readings are never updated
+    or deleted, so nothing else can). Three index lookups."""
+    return tuple(conn.execute(
+        "SELECT (SELECT MAX(id) FROM readings WHERE site_id = ?), (SELECT COUNT(*) FROM voids), "
+        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL)",
+        (site_id,)).fetchone())
+
+
+def _merge_totals(old: list[dict], new: list[dict]) -> list[dict]:
+    """Day totals of older readings and of newer ones as the totals of both."""
+    by_key = {(t["sample"], t["depth_cm"], t["day"]): dict(t) for t in old}
+    for t in new:
+        k = (t["sample"], t["depth_cm"], t["day"])
+        o = by_key.get(k)
+        if o is None:
+            by_key[k] = dict(t)
+            continue
+        o["n"] += t["n"]
+        if t["n_y"]:
+            o["lo"] = t["lo"] if o["lo"] is None else min(o["lo"], t["lo"])
+            o["hi"] = t["hi"] if o["hi"] is None else max(o["hi"], t["hi"])
+            o["total"] = (o["total"] or 0.0) + t["total"]
+            o["n_y"] += t["n_y"]
+            o["mean"] = o["total"] / o["n_y"]
+    return sorted(by_key.values(), key=lambda t: t["day"])
+
+
+class SiteCache:
+    """The day totals and flagged readings of recently viewed sites, kept
+    between requests so that a site page does not walk all of a site's
+    readings again each time (25,000 at a busy site). Checked against
+    :func:`log_state` on every use: readings saved since are added from a
+    query over them alone; a void or a correction anywhere in the log makes
+    the site's totals be counted afresh. At most ``most`` sites are kept (the
+    least recently viewed goes first). Safe to share between threads."""
+
+    def __init__(self, most: int = 64):
+        import threading
+        from collections import OrderedDict
+        self.most = most
+        self._sites: OrderedDict = OrderedDict()
+        self._lock = threading.Lock()
+
+    def site(self, conn, site_id: int) -> tuple[list[dict], list[dict]]:
+        """(day totals, flagged readings) of every day of the site, oldest first."""
+        state = log_state(conn, site_id)
+        with self._lock:
+            held = self._sites.get(site_id)
+        top = state[0]
+        if top is None:                       # no reading at the site
+            return [], []
+        if held is not None and held[0] == state:
+            totals, flagged = held[1], held[2]
+        elif held is not None and held[0][1:] == state[1:] and held[0][0] < top:
+            # only readings saved since: add theirs (ids bound the queries, so a
+            # reading saved during this request is left for the next one)
+            ids = (held[0][0], top)
+            totals = _merge_totals(held[1], day_totals(conn, site_id, ids=ids))
+            flagged = sorted(held[2] + flagged_rows(conn, site_id, ids=ids),
+                             key=lambda r: (r["taken_at"], r["id"]))
+        else:
+            ids = (None, top)
+            totals, flagged = day_totals(conn, site_id, ids=ids), flagged_rows(conn, site_id, ids=ids)
+        with self._lock:
+            self._sites[site_id] = (state, totals, flagged)
+            self._sites.move_to_end(site_id)
+            while len(self._sites) > self.most:
+                self._sites.popitem(last=False)
+        return totals, flagged

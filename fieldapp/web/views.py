@@ -17,7 +17,7 @@ from .. import sites as sitecfg
 from ..science import InputError, extracts, osmotic, tolerance
 from . import Later
 from .db import get_db
-from .helpers import max_age_days, site_by_id
+from .helpers import max_age_days, site_by_id, site_cache
 
 charts = Later("fieldapp.charts")
 interpret = Later("fieldapp.interpret")
@@ -33,7 +33,7 @@ def interpretation(db, site, targets, as_of: str | None = None, highlight: str |
                    highlight_at: str | None = None) -> tuple[dict, list[dict], dict | None]:
     """The summary, the chart data and the profile of a site, up to ``as_of``,
     from the few rows the database picks for them (``store.site_rows``)."""
-    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight)
+    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight, cache=site_cache())
     summary = interpret.summary_from_rows(site, rows, targets, as_of=as_of)
     specs = interpret.specs_from_series(site, rows["soil_series"], rows["sol_series"], targets,
                                         highlight=highlight, highlight_at=highlight_at)
