@@ -101,6 +101,8 @@ def _long_site(db, days: int = 400, per_day: int = 4, seed: int = 5) -> int:
                 kinds.append((LEACH, f"{rng.uniform(1.5, 4.0):.2f}", None))
             if d % 50 == 7 and k == 0:
                 kinds.append((SLIP, "900", None))
+            if d % 5 == 1 and k == 1:              # paste and 1:5 in one series (30 cm)
+                kinds.append((PASTE, f"{rng.choice((0.3, 2.0, 9.5)):.1f}", "30"))
             for base, value, depth in kinds:
                 pl = {**base, "value": value, "site": "Bench 4", "taken_at": t}
                 if depth:
