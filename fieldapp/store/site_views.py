@@ -26,6 +26,7 @@ import datetime as dt
 from collections import defaultdict
 
 from .core import VIEW_COLUMNS
+from .sites import open_flag_counts
 
 SOIL = ("paste", "extract")
 SOLUTIONS = ("water", "feed", "leachate", "drain", "sme", "media")
@@ -184,6 +185,16 @@ def log_state(conn, site_id: int) -> tuple:
         (site_id,)).fetchone())
 
 
+def log_flag_state(conn) -> tuple:
+    """What tells whether the sites list's "to check" counts changed: the
+    newest reading id and how many voids, corrections and acknowledgements
+    the log holds."""
+    return tuple(conn.execute(
+        "SELECT (SELECT MAX(id) FROM readings), (SELECT COUNT(*) FROM voids), "
+        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL), "
+        "(SELECT COUNT(*) FROM flag_acks)").fetchone())
+
+
 def _merge_totals(old: list[dict], new: list[dict]) -> list[dict]:
     """Day totals of older readings and of newer ones as the totals of both."""
     by_key = {(t["sample"], t["depth_cm"], t["day"]): dict(t) for t in old}
@@ -210,7 +221,8 @@ class SiteCache:
     :func:`log_state` on every use: readings saved since are added from a
     query over them alone; a void or a correction anywhere in the log makes
     the site's totals be counted afresh. At most ``most`` sites are kept (the
-    least recently viewed goes first). Safe to share between threads."""
+    least recently viewed goes first); the sites list's "to check" counts
+    are kept the same way (:meth:`open_flags`). Safe to share between threads."""
 
     def __init__(self, most: int = 64):
         import threading
@@ -239,9 +251,32 @@ class SiteCache:
         else:
             ids = (None, top)
             totals, flagged = day_totals(conn, site_id, ids=ids), flagged_rows(conn, site_id, ids=ids)
+        self._keep(site_id, (state, totals, flagged))
+        return totals, flagged
+
+    def open_flags(self, conn, site_ids) -> dict[int, int]:
+        """``store.open_flag_counts`` of these sites, from counts of the whole
+        log kept like the day totals (readings saved since are counted alone;
+        a void, correction or acknowledgement counts afresh)."""
+        state = log_flag_state(conn)
         with self._lock:
-            self._sites[site_id] = (state, totals, flagged)
-            self._sites.move_to_end(site_id)
+            held = self._sites.get("open_flags")
+        if state[0] is None:
+            counts = {}
+        elif held is not None and held[0] == state:
+            counts = held[1]
+        elif held is not None and held[0][1:] == state[1:] and held[0][0] < state[0]:
+            counts = dict(held[1])
+            for sid, n in open_flag_counts(conn, ids=(held[0][0], state[0])).items():
+                counts[sid] = counts.get(sid, 0) + n
+        else:
+            counts = open_flag_counts(conn, ids=(0, state[0]))
+        self._keep("open_flags", (state, counts))
+        return {s: counts[s] for s in site_ids if counts.get(s)}
+
+    def _keep(self, key, value) -> None:
+        with self._lock:
+            self._sites[key] = value
+            self._sites.move_to_end(key)
             while len(self._sites) > self.most:
                 self._sites.popitem(last=False)
-        return totals, flagged

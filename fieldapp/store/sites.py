@@ -163,18 +163,23 @@ def list_sites(conn, where: str = "", args=(), limit: int | None = None
         list(args) + ([limit] if limit else [])).fetchall()
 
 
-def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
+def open_flag_counts(conn, site_ids=None, ids: tuple | None = None) -> dict[int, int]:
     """Per site, how many current readings carry an error-level flag that
     nobody has acknowledged (a reading saved where the page could not check
     it: the sites list marks it until a correction or an acknowledgement
     settles it; "Save anyway" on the page acknowledges at once). ``site_ids``:
-    only these sites (the page of the sites list being shown)."""
+    only these sites (the page of the sites list being shown); ``ids``
+    (lo, hi): only readings with lo < id <= hi (``store.SiteCache`` adds
+    readings saved since)."""
     only, args = "", []
+    if ids is not None:
+        only, args = "AND f.reading_id > ? AND f.reading_id <= ? ", [ids[0], ids[1]]
     if site_ids is not None:
         site_ids = list(site_ids)
         if not site_ids:
             return {}
-        only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
+        only += f"AND r.site_id IN ({','.join('?' * len(site_ids))})"
+        args += site_ids
     # reading_flags (schema 014): the error-level rows through their index,
     # then three unique-index probes each; no JSON is read.
     rows = conn.execute("""

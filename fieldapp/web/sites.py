@@ -10,7 +10,7 @@ from .. import store
 from ..science import extracts, tolerance
 from ..results import CAUTIONS
 from .db import get_db
-from .helpers import json_body, page_date, paged, site_by_id
+from .helpers import json_body, page_date, paged, site_by_id, site_cache
 from .views import site_view
 
 bp = Blueprint("sites", __name__)
@@ -37,7 +37,7 @@ def sites_page():
     except store.PageError:
         abort(404)
     return render_template("sites.html", sites=rows, kind_label=sitecfg.kind_label,
-                           to_check=store.open_flag_counts(db, [s["id"] for s in rows]),
+                           to_check=site_cache().open_flags(db, [s["id"] for s in rows]),
                            next_url=nxt and url_for("sites.sites_page", after=nxt),
                            first_url=after and url_for("sites.sites_page"))
 

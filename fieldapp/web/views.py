@@ -59,7 +59,6 @@ def site_view(db, site) -> dict:
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
     summary, specs, prof = interpretation(db, site, targets)
-    visits = store.visits_for_site(db, site["id"])
     return {
         "s": summary,
         "charts": _chart_figures(specs),
@@ -70,7 +69,7 @@ def site_view(db, site) -> dict:
         "report_url": url_for("views.report", site_id=site["id"]),
         "settings_url": url_for("sites.site_settings", site_id=site["id"]),
         "map_url": url_for("views.map_page"),
-        "has_visits": bool(visits),
+        "has_visits": bool(summary["n_readings"]),   # every reading belongs to a visit
         "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
     }
 
