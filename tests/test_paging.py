@@ -117,6 +117,20 @@ def test_a_bad_limit_or_cursor_is_a_clear_400(client, query):
     assert r.get_json()["field"] in ("limit", "after", "from")
 
 
+def test_site_counts_kept_between_requests_follow_new_readings(client, db):
+    def listed():
+        return {s["name"]: s["n_readings"] for s in client.get("/api/sites").get_json()}
+
+    save(client, reading("Block 3", 1))
+    assert listed() == {"Block 3": 1}
+    first = save(client, reading("Block 3", 2))
+    save(client, reading("Bench 4", 3))
+    client.post(f"/api/readings/{first['uuid']}/correct", json={"value": "1.3"})
+    counted = {s["name"]: s["n_readings"] for s in store.list_sites(db)}   # counted afresh
+    assert listed() == counted == {"Block 3": 3, "Bench 4": 1}
+    assert "3 readings" in client.get("/sites").get_data(as_text=True)
+
+
 def test_sites_are_paged_by_name(client, db):
     names = [f"Block {i:03d}" for i in range(12)] + ["block 005b", "Bench 4"]
     for n in names:

@@ -195,6 +195,14 @@ def log_flag_state(conn) -> tuple:
         "(SELECT COUNT(*) FROM flag_acks)").fetchone())
 
 
+def reading_counts(conn, ids: tuple) -> dict[int, int]:
+    """Per site, how many reading versions have ``ids[0] < id <= ids[1]``
+    (:func:`_ids`; every version, as ``list_sites`` counts them)."""
+    cond, args = _ids(ids)
+    return dict(tuple(r) for r in conn.execute(
+        f"SELECT r.site_id, COUNT(*) FROM readings r WHERE 1 = 1{cond} GROUP BY r.site_id", args))
+
+
 def _merge_totals(old: list[dict], new: list[dict]) -> list[dict]:
     """Day totals of older readings and of newer ones as the totals of both."""
     by_key = {(t["sample"], t["depth_cm"], t["day"]): dict(t) for t in old}
@@ -273,6 +281,25 @@ class SiteCache:
             counts = open_flag_counts(conn, ids=(0, state[0]))
         self._keep("open_flags", (state, counts))
         return {s: counts[s] for s in site_ids if counts.get(s)}
+
+    def reading_counts(self, conn) -> dict[int, int]:
+        """Every site's count of reading versions, kept between requests:
+        readings are never deleted, so readings saved since are counted alone."""
+        top = conn.execute("SELECT MAX(id) FROM readings").fetchone()[0]
+        with self._lock:
+            held = self._sites.get("reading_counts")
+        if top is None:
+            return {}
+        if held is not None and held[0] == top:
+            return held[1]
+        if held is not None and held[0] < top:
+            counts = dict(held[1])
+            for sid, n in reading_counts(conn, (held[0], top)).items():
+                counts[sid] = counts.get(sid, 0) + n
+        else:
+            counts = reading_counts(conn, (None, top))
+        self._keep("reading_counts", (top, counts))
+        return counts
 
     def _keep(self, key, value) -> None:
         with self._lock:

@@ -143,13 +143,16 @@ def site_by_former_name(conn, name: str) -> sqlite3.Row | None:
     return conn.execute("SELECT * FROM sites WHERE id = ?", (row[0],)).fetchone()
 
 
-def list_sites(conn, where: str = "", args=(), limit: int | None = None
-               ) -> list[sqlite3.Row]:
+def list_sites(conn, where: str = "", args=(), limit: int | None = None,
+               counts: bool = True) -> list[sqlite3.Row]:
     """Every site (or, with ``where``/``limit``, one page of them: see
-    :func:`sites_page`) with its reading count and latest current reading."""
-    return conn.execute("""
+    :func:`sites_page`) with its reading count and latest current reading.
+    ``counts=False``: ``n_readings`` is NULL (counting walks every reading of
+    the log; ``store.SiteCache.reading_counts`` keeps the counts)."""
+    n = "(SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id)" if counts else "NULL"
+    return conn.execute(f"""
         SELECT s.*,
-               (SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id) AS n_readings,
+               {n} AS n_readings,
                l.taken_at AS last_taken_at, l.sample AS last_sample, l.value AS last_value,
                l.unit AS last_unit, l.ec25_dS_m AS last_ec25_dS_m, l.ece_dS_m AS last_ece_dS_m,
                l.flags AS last_flags

@@ -39,7 +39,7 @@ def entry():
     # Each site with its latest current reading's sample kind and unit: a
     # reading at an existing site starts from those, a new site from nothing.
     sites = [{"name": s["name"], "sample": s["last_sample"], "unit": s["last_unit"],
-              "kind": s["kind"]} for s in store.list_sites(db)]
+              "kind": s["kind"]} for s in store.list_sites(db, counts=False)]
     meter_names = [m["name"] for m in store.list_meters(db)]
     return render_template("entry.html", meta=_form_meta(), sites=sites, meters=meter_names,
                            cautions=CAUTIONS)

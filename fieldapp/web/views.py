@@ -199,7 +199,7 @@ def map_data(site_rows) -> dict:
 @bp.get("/map")
 def map_page():
     db = get_db()
-    sites = store.list_sites(db)
+    sites = store.list_sites(db, counts=False)      # the map shows no counts
     data = map_data(sites)
     return render_template("map.html", m=data, all_sites=sites,
                            points=[{k: p[k] for k in ("n", "name", "lat", "lon", "id")}

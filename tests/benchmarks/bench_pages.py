@@ -6,9 +6,12 @@ Takes a log of N invented readings over 40 sites (default 200,000;
 `bench.make_log`, one executemany) from the benchmark cache (default: the
 system's temporary folder / fieldapp-bench-cache, the folder and the
 function bench_csv.py uses, so a log built by either is built once), starts
-`serve` on 127.0.0.1 and fetches
-each page and API list 3 times, printing the response size and the median
-time (loopback, so nearly all of it is server time). Floor, same server,
+`serve` on 127.0.0.1 and fetches each page and API list once and then 3
+times, printing the response size, the median time of the three and the
+time of the first (loopback, so nearly all of it is server time). The first
+fetch of /sites/1 is the server's first sight of the site: it counts the
+site's readings, which ``store.SiteCache`` keeps for the next views of the
+site (its older page, its report, its summary). Floor, same server,
 same run: GET /api/readings/<uuid> (one stored reading through the same
 stack). Target from issue 12: under 250 KB and 150 ms. Figures only. With
 ``slips`` one reading in 41 carries an error-level flag (a unit slip), so
@@ -75,7 +78,7 @@ def fetch(port, path, n=3):
         size, headers = len(body), dict(r.getheaders())
         assert r.status == 200, (path, r.status, body[:200])
     conn.close()
-    return statistics.median(times), size, headers, body
+    return statistics.median(times), size, headers, body, times[0]
 
 
 def main():
@@ -98,19 +101,27 @@ def main():
           + f"), ready in {time.perf_counter() - t0:.0f} s: {db}")
     srv = ServerProcess(db.parent).start(timeout=120)
     try:
-        ft, fs, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
+        ft, fs, _, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
         print(f"{'floor: GET /api/readings/<uuid>':44s} {fs / 1024:8.1f} KB {ft * 1000:8.1f} ms")
-        _, _, _, page = fetch(srv.port, "/sites/1", 1)
-        older = re.search(rb'id="older-readings" rel="next" href="([^"]+)"', page)
-        paths = ["/", "/sites", "/sites/1",
-                 older.group(1).decode().replace("&amp;", "&") if older else None,
-                 "/sites/1/report", "/map", "/meters", "/api/readings",
-                 "/api/readings?site=Block%201", "/api/readings?limit=100",
+        print(f"{'':44s} {'size':>11s} {'median':>11s} {'first':>11s}")
+        paths = ["/", "/sites", "/sites/1", "older", "/sites/1/report", "/map", "/meters",
+                 "/api/readings", "/api/readings?site=Block%201", "/api/readings?limit=100",
                  "/api/sites", "/api/sites/1/summary"]
-        for p in filter(None, paths):
-            t, size, h, _ = fetch(srv.port, p)
-            mark = "" if size < 250 * 1024 and t < 0.150 else "   (over target)"
-            print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms{mark}")
+        older = None
+        for p in paths:
+            if p == "older":          # the site log's "Older readings" link
+                if older is None:
+                    continue
+                p = older.group(1).decode().replace("&amp;", "&")
+            # 1 + 3 fetches: the first one is the server's first sight of the page
+            # (nothing kept from an earlier request), the median is of the three after it
+            first, _, _, _, _ = fetch(srv.port, p, 1)
+            t, size, h, body, _ = fetch(srv.port, p)
+            if p == "/sites/1":
+                older = re.search(rb'id="older-readings" rel="next" href="([^"]+)"', body)
+            mark = "" if size < 250 * 1024 and max(t, first) < 0.150 else "   (over target)"
+            print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms {first * 1000:8.1f} ms"
+                  + mark)
     finally:
         srv.stop()
 
