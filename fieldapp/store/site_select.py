@@ -24,12 +24,17 @@ def site_rows(conn, site_id: int, as_of: str | None = None,
     profile's rows and each chart series' candidates (``keep_day``: the day
     whose points a report keeps). ``cache``: a :class:`site_views.SiteCache`
     that keeps the day totals and flagged readings between calls."""
-    if cache is not None:
-        every_day, every_flagged = cache.site(conn, site_id)
+    if cache is None:
+        return _site_rows(conn, site_id, as_of, keep_day, day_totals(conn, site_id, as_of), None)
+
+    def make(every_day, every_flagged):
         tot = [t for t in every_day if as_of is None or t["day"] <= as_of]
-        flagged = [dict(r) for r in every_flagged if as_of is None or r["taken_at"][:10] <= as_of]
-    else:
-        tot, flagged = day_totals(conn, site_id, as_of), None
+        flagged = [r for r in every_flagged if as_of is None or r["taken_at"][:10] <= as_of]
+        return _site_rows(conn, site_id, as_of, keep_day, tot, flagged)
+    return cache.rows(conn, site_id, (as_of, keep_day), make)
+
+
+def _site_rows(conn, site_id: int, as_of, keep_day, tot: list[dict], flagged) -> dict:
     out = {"n_readings": reading_count(conn, site_id), "n_current": sum(t["n"] for t in tot),
            "last_date": max((t["day"] for t in tot), default=None)}
     valued = [t for t in tot if t["n_y"]]

@@ -222,6 +222,10 @@ def _merge_totals(old: list[dict], new: list[dict]) -> list[dict]:
     return sorted(by_key.values(), key=lambda t: t["day"])
 
 
+#: Answers of site_rows kept per site (the site page's and a report's or two).
+MOST_KEPT_VIEWS = 3
+
+
 class SiteCache:
     """The day totals and flagged readings of recently viewed sites, kept
     between requests so that a site page does not walk all of a site's
@@ -229,10 +233,12 @@ class SiteCache:
     :func:`log_state` on every use: readings saved since are added from a
     query over them alone; a void or a correction anywhere in the log makes
     the site's totals be counted afresh. At most ``most`` sites are kept (the
-    least recently viewed goes first); the sites list's "to check" counts
-    are kept the same way (:meth:`open_flags`). Safe to share between threads."""
+    least recently viewed goes first), each with the rows its views last
+    read (:meth:`rows`); every site's reading count (:meth:`reading_counts`)
+    and the sites list's "to check" counts (:meth:`open_flags`) are kept the
+    same way. Safe to share between threads."""
 
-    def __init__(self, most: int = 64):
+    def __init__(self, most: int = 32):
         import threading
         from collections import OrderedDict
         self.most = most
@@ -241,15 +247,30 @@ class SiteCache:
 
     def site(self, conn, site_id: int) -> tuple[list[dict], list[dict]]:
         """(day totals, flagged readings) of every day of the site, oldest first."""
+        return self._site(conn, site_id)[:2]
+
+    def rows(self, conn, site_id: int, key, make):
+        """What ``make(totals, flagged)`` gives (``site_select.site_rows``'s
+        answer for ``key``: its as_of and keep_day), kept while the site's
+        readings stay as they are (at most :data:`MOST_KEPT_VIEWS` per site).
+        Read-only: every caller shares it."""
+        totals, flagged, kept = self._site(conn, site_id)
+        if key not in kept:
+            while len(kept) >= MOST_KEPT_VIEWS:
+                kept.pop(next(iter(kept)), None)
+            kept[key] = make(totals, flagged)
+        return dict(kept[key])
+
+    def _site(self, conn, site_id: int) -> tuple[list[dict], list[dict], dict]:
         state = log_state(conn, site_id)
         with self._lock:
             held = self._sites.get(site_id)
         top = state[0]
         if top is None:                       # no reading at the site
-            return [], []
+            return [], [], {}
         if held is not None and held[0] == state:
-            totals, flagged = held[1], held[2]
-        elif held is not None and held[0][1:] == state[1:] and held[0][0] < top:
+            return held[1], held[2], held[3]
+        if held is not None and held[0][1:] == state[1:] and held[0][0] < top:
             # only readings saved since: add theirs (ids bound the queries, so a
             # reading saved during this request is left for the next one)
             ids = (held[0][0], top)
@@ -259,8 +280,9 @@ class SiteCache:
         else:
             ids = (None, top)
             totals, flagged = day_totals(conn, site_id, ids=ids), flagged_rows(conn, site_id, ids=ids)
-        self._keep(site_id, (state, totals, flagged))
-        return totals, flagged
+        kept: dict = {}
+        self._keep(site_id, (state, totals, flagged, kept))
+        return totals, flagged, kept
 
     def open_flags(self, conn, site_ids) -> dict[int, int]:
         """``store.open_flag_counts`` of these sites, from counts of the whole
