@@ -152,15 +152,17 @@ def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day, flagg
 def _series_picks(key, by_day: dict, thin: bool, keep_day, day_buckets) -> list[tuple]:
     """The picks of one chart series: every reading when short; else its first
     and last day and ``keep_day`` whole, and each bucket's lowest and highest
-    value, each asked of the sample kinds that hold it that day only."""
-    depth = key[1] if key[0] == "soil" else ...
+    value, each asked of the sample kinds (and depths) that hold it that day
+    only. A depth is always named, even for a solution series drawn over every
+    depth: a pick of one depth walks the covering index of schema 019, a pick
+    of any depth read each reading of the day whole."""
     days = sorted(by_day)
-    kinds = {d: sorted({t["sample"] for t in by_day[d]}) for d in days}
     if not thin:
-        return [_pick(k, days[0], depth, last_day=days[-1])
-                for k in sorted({k for d in days for k in kinds[d]})]
+        groups = sorted({(t["sample"], t["depth_cm"]) for d in days for t in by_day[d]},
+                        key=lambda g: (g[0], g[1] is None, g[1] or 0))
+        return [_pick(k, days[0], depth, last_day=days[-1]) for k, depth in groups]
     whole = {days[0], days[-1]} | ({keep_day} & set(days))
-    picks = [_pick(k, d, depth) for d in whole for k in kinds[d]]
+    picks = [_pick(t["sample"], d, t["depth_cm"]) for d in whole for t in by_day[d]]
     bucket = day_buckets(days, max(1, MOST_POINTS // 2))
     ext: dict[int, dict] = {}
     for d in days:                            # oldest first: the first extreme of a bucket wins
@@ -173,6 +175,8 @@ def _series_picks(key, by_day: dict, thin: bool, keep_day, day_buckets) -> list[
             e["hi"] = (hi, d)
     for e in ext.values():
         (lo, d_lo), (hi, d_hi) = e["lo"], e["hi"]
-        picks += [_pick(t["sample"], d_lo, depth, y=lo) for t in by_day[d_lo] if t["lo"] == lo]
-        picks += [_pick(t["sample"], d_hi, depth, y=hi) for t in by_day[d_hi] if t["hi"] == hi]
+        picks += [_pick(t["sample"], d_lo, t["depth_cm"], y=lo) for t in by_day[d_lo]
+                  if t["lo"] == lo]
+        picks += [_pick(t["sample"], d_hi, t["depth_cm"], y=hi) for t in by_day[d_hi]
+                  if t["hi"] == hi]
     return picks
