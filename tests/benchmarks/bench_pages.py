@@ -1,6 +1,7 @@
 """Benchmark: size and time of every page and API list on a large log.
 
     .venv/bin/python tests/benchmarks/bench_pages.py [N_READINGS] [slips] [--cache DIR]
+                                                     [--after-save]
 
 Takes a log of N invented readings over 40 sites (default 200,000;
 `bench.make_log`, one executemany) from the benchmark cache (default: the
@@ -16,7 +17,9 @@ site (its older page, its report, its summary). Floor, same server,
 same run: GET /api/readings/<uuid> (one stored reading through the same
 stack). Target from issue 12: under 250 KB and 150 ms. Figures only. With
 ``slips`` one reading in 41 carries an error-level flag (a unit slip), so
-the sites list has readings to check and the charts flagged points to keep."""
+the sites list has readings to check and the charts flagged points to keep.
+With ``--after-save`` the server runs on a copy of the cached log, and at the
+end saves 5 readings at site 1, fetching /sites/1 after each."""
 from __future__ import annotations
 
 import http.client
@@ -86,12 +89,38 @@ def fetch(port, path, n=3):
     return statistics.median(times), size, headers, body, times[0]
 
 
+def after_saves(port, n: int = 5) -> list[float]:
+    """Save a reading at site 1, then fetch /sites/1: n times. Each save changes
+    what the site views keep, so each page adds the saved reading to the kept
+    totals and asks for its chart candidates again."""
+    import json
+    conn = http.client.HTTPConnection("127.0.0.1", port, timeout=300)
+    times = []
+    for k in range(n):
+        body = json.dumps({"site": "Block 1", "sample": "water", "value": str(500 + k),
+                           "unit": "µS/cm", "temp_c": "20"})
+        conn.request("POST", "/api/readings", body=body,
+                     headers={"Content-Type": "application/json"})
+        r = conn.getresponse()
+        assert r.status == 201, (r.status, r.read()[:200])
+        r.read()
+        t = time.perf_counter()
+        conn.request("GET", "/sites/1")
+        r = conn.getresponse()
+        r.read()
+        times.append(time.perf_counter() - t)
+        assert r.status == 200
+    conn.close()
+    return times
+
+
 def main():
     args = sys.argv[1:]
     cache = Path(tempfile.gettempdir()) / "fieldapp-bench-cache"
     if "--cache" in args:
         cache = Path(args.pop(args.index("--cache") + 1))
         args.remove("--cache")
+    saves = "--after-save" in args
     n = int(args[0]) if args and args[0].isdigit() else 200_000
     slips = "slips" in args
     cache.mkdir(parents=True, exist_ok=True)
@@ -104,6 +133,12 @@ def main():
     print(f"log of {n:,} readings over 40 sites ({per_site:,} at site 1"
           + (", 1 in 41 with an error flag" if slips else "")
           + f"), ready in {time.perf_counter() - t0:.0f} s: {db}")
+    work = None
+    if saves:     # saves go to a copy: the cached log stays as built
+        import shutil
+        work = tempfile.TemporaryDirectory(prefix="fieldapp-bench-pages-")
+        shutil.copy(db, Path(work.name) / db.name)
+        db = Path(work.name) / db.name
     srv = ServerProcess(db.parent).start(timeout=120)
     try:
         ft, fs, _, _, _ = fetch(srv.port, f"/api/readings/{uuid}", 5)
@@ -134,8 +169,14 @@ def main():
             mark = "" if size < 250 * 1024 and max(t, first) < 0.150 else "   (over target)"
             print(f"{p[:44]:44s} {size / 1024:8.1f} KB {t * 1000:8.1f} ms {first * 1000:8.1f} ms"
                   + mark)
+        if saves:
+            ts = after_saves(srv.port)
+            print(f"{'/sites/1 right after a save at site 1 (x5)':44s} {'':11s} "
+                  f"{statistics.median(ts) * 1000:8.1f} ms (max {max(ts) * 1000:.1f} ms)")
     finally:
         srv.stop()
+        if work is not None:
+            work.cleanup()
 
 
 if __name__ == "__main__":
