@@ -3,6 +3,8 @@ limits, reference lines at the published yield ECe, text escaped, and great-
 circle distances against a published worked example. Sources beside each check."""
 from __future__ import annotations
 
+import re
+
 import math
 import xml.etree.ElementTree as ET
 
@@ -62,9 +64,13 @@ def test_one_mark_per_reading_with_its_key():
     # depths are separate series: two series lines, each a different dash pattern
     lines = root.findall(".//s:polyline[@class='series-line']", NS)
     assert len(lines) == 2 and lines[0].get("stroke-dasharray") != lines[1].get("stroke-dasharray")
-    # and different marker shapes (black and white print): different path outlines
-    shapes = {m.get("data-series"): m.get("d")[:1] for m in marks}
-    assert len(shapes) == 2
+    # and different marker shapes (black and white print): different path outlines,
+    # each series' marks in a group that names it
+    groups = root.findall(".//s:g[@class='series-marks']", NS)
+    shapes = {g.get("data-series"): re.sub(r"[^A-Za-z]", "", g.find("s:path", NS).get("d"))
+              for g in groups}
+    assert len(shapes) == 2 and len(set(shapes.values())) == 2
+    assert sum(len(g.findall("s:path[@data-key]", NS)) for g in groups) == 7
 
 
 def test_soil_bands_at_the_published_class_limits_and_drawn_where_the_axis_says():

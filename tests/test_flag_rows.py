@@ -176,19 +176,26 @@ def test_to_check_count_follows_acks_corrections_and_voids(client, db):
         assert r.status_code == 201, r.get_json()
         return r.get_json()
 
+    def on_the_page():
+        """The sites list's count (kept between requests, store.SiteCache)."""
+        import re
+        m = re.search(r"⚑ (\d+) readings? to check", client.get("/sites").get_data(as_text=True))
+        return int(m.group(1)) if m else 0
+
     a = post({**SLIP, "site": "Block 3"})
-    b = post({**SLIP, "site": "Block 3"})
+    assert on_the_page() == 1
+    b = post({**SLIP, "site": "Block 3"})             # readings saved since the page was made
     c = post({**SLIP, "site": "Block 3"})
     post({**PLAIN, "site": "Block 3"})
     sid = store.get_site(db, "Block 3")["id"]
-    assert store.open_flag_counts(db) == {sid: 3}
+    assert store.open_flag_counts(db) == {sid: 3} and on_the_page() == 3
     r = client.post(f"/api/readings/{a['uuid']}/ack", json={"code": "unit_slip",
                                                             "note": "the meter read mS/cm"})
     assert r.status_code == 201, r.get_json()
-    assert store.open_flag_counts(db) == {sid: 2}
+    assert store.open_flag_counts(db) == {sid: 2} and on_the_page() == 2
     r = client.post(f"/api/readings/{b['uuid']}/void", json={"reason": "probe not rinsed"})
     assert r.status_code in (200, 201), r.get_json()
-    assert store.open_flag_counts(db) == {sid: 1}
+    assert store.open_flag_counts(db) == {sid: 1} and on_the_page() == 1
     r = client.post(f"/api/readings/{c['uuid']}/correct", json={**PLAIN, "site": "Block 3"})
     assert r.status_code in (200, 201), r.get_json()
-    assert store.open_flag_counts(db) == {}
+    assert store.open_flag_counts(db) == {} and on_the_page() == 0

@@ -92,6 +92,22 @@ def test_page_size_default_and_bound(client, db):
     assert len({x["uuid"] for x in seen}) == store.PAGE_DEFAULT + 5
 
 
+def test_a_page_of_readings_ends_before_its_size_limit_and_the_next_link_names_the_rest(
+        client, monkeypatch):
+    from fieldapp.web import readings as api
+    saved = [save(client, reading("Block 3", m, note="a long note " * 40)) for m in range(30)]
+    one = len(client.get(f"/api/readings/{saved[0]['uuid']}").get_data())
+    monkeypatch.setattr(api, "PAGE_BYTES", 10 * one)
+    r = client.get("/api/readings?limit=30")
+    assert 5 <= len(r.get_json()) < 10 and len(r.get_data()) < 10 * one and "Link" in r.headers
+    seen, pages = walk(client, "/api/readings?limit=30")
+    assert [x["uuid"] for x in seen] == [x["uuid"] for x in sorted(
+        saved, key=lambda x: (x["taken_at"], x["id"]), reverse=True)]
+    assert pages >= 3
+    monkeypatch.setattr(api, "PAGE_BYTES", one // 2)       # one reading a page, never none
+    assert len(client.get("/api/readings?limit=30").get_json()) == 1
+
+
 @pytest.mark.parametrize("query", ["limit=0", "limit=-1", "limit=101", "limit=501", "limit=abc", "limit=1.5",
                                    "limit=１０", "after=xyz", "after=WzFd", "after=" + "A" * 2000,
                                    "after=" + store.encode_cursor(1, "x"), "from=yesterday"])
@@ -99,6 +115,20 @@ def test_a_bad_limit_or_cursor_is_a_clear_400(client, query):
     r = client.get("/api/readings?" + query)
     assert r.status_code == 400
     assert r.get_json()["field"] in ("limit", "after", "from")
+
+
+def test_site_counts_kept_between_requests_follow_new_readings(client, db):
+    def listed():
+        return {s["name"]: s["n_readings"] for s in client.get("/api/sites").get_json()}
+
+    save(client, reading("Block 3", 1))
+    assert listed() == {"Block 3": 1}
+    first = save(client, reading("Block 3", 2))
+    save(client, reading("Bench 4", 3))
+    client.post(f"/api/readings/{first['uuid']}/correct", json={"value": "1.3"})
+    counted = {s["name"]: s["n_readings"] for s in store.list_sites(db)}   # counted afresh
+    assert listed() == counted == {"Block 3": 3, "Bench 4": 1}
+    assert "3 readings" in client.get("/sites").get_data(as_text=True)
 
 
 def test_sites_are_paged_by_name(client, db):

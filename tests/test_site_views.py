@@ -41,12 +41,12 @@ def _close(a, b, path="") -> None:
         assert a == b, path
 
 
-def _views_match(db, site: dict, as_of=None, highlight=None) -> dict:
+def _views_match(db, site: dict, as_of=None, highlight=None, cache=None) -> dict:
     site = dict(site)
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
     every = store.view_readings(db, site["id"])
-    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight)
+    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight, cache=cache)
     summary = interpret.summary_from_rows(site, rows, targets, as_of=as_of)
     _close(summary, interpret.site_summary(site, every, targets, as_of=as_of))
     specs = interpret.specs_from_series(site, rows["soil_series"], rows["sol_series"], targets,
@@ -101,6 +101,8 @@ def _long_site(db, days: int = 400, per_day: int = 4, seed: int = 5) -> int:
                 kinds.append((LEACH, f"{rng.uniform(1.5, 4.0):.2f}", None))
             if d % 50 == 7 and k == 0:
                 kinds.append((SLIP, "900", None))
+            if d % 5 == 1 and k == 1:              # paste and 1:5 in one series (30 cm)
+                kinds.append((PASTE, f"{rng.choice((0.3, 2.0, 9.5)):.1f}", "30"))
             for base, value, depth in kinds:
                 pl = {**base, "value": value, "site": "Bench 4", "taken_at": t}
                 if depth:
@@ -133,6 +135,40 @@ def test_a_long_site_thinned_by_the_database(db):
     for day in (days[0], days[len(days) // 2], days[-1]):          # reports of older visits
         out = _views_match(db, site, as_of=day, highlight=day)
         assert out["summary"]["last_date"] == day
+
+
+def test_totals_kept_between_requests_follow_every_change(db):
+    """store.SiteCache keeps a site's day totals and flagged readings between
+    requests; after readings saved since (a new day, a late one for an old
+    day, a unit slip), a void and a correction, the views made with it still
+    say what the views over every reading say, and what site_rows says
+    without it."""
+    sid = _long_site(db, days=120)
+    site = store.get_site(db, sid)
+    cache = store.SiteCache()
+    first = _views_match(db, site, cache=cache)
+    assert _views_match(db, site, cache=cache)["rows"] == first["rows"]   # kept, same answer
+    state, held = cache._sites[sid][:2]
+    new = save_reading(db, {**WATER, "value": "5000", "site": "Bench 4",
+                            "taken_at": "2025-06-01T08:00:00+01:00"})[0]       # a new highest
+    save_reading(db, {**PASTE, "value": "0.2", "site": "Bench 4",
+                      "taken_at": "2025-01-02T09:00:00+01:00"})                # late, an old day
+    save_reading(db, {**SLIP, "site": "Bench 4", "taken_at": "2025-05-30T10:00:00+01:00"})
+    out = _views_match(db, site, cache=cache)
+    assert cache._sites[sid][1] is not held and store.log_state(db, sid)[1:] == state[1:]
+    assert out["rows"] == store.site_rows(db, sid)
+    water = [p for spec in out["specs"] for s in spec["series"] if s["name"] == "water"
+             for p in s["points"]]
+    assert new["uuid"] in {p["key"] for p in water}
+    store.void_reading(db, new["uuid"], "meter not rinsed")
+    old = store.view_readings(db, sid)[10]
+    save_reading(db, {**WATER, "value": "700", "site": "Bench 4", "supersedes": old["uuid"],
+                      "taken_at": old["taken_at"]})
+    for day in (None, "2025-03-03"):
+        out = _views_match(db, site, as_of=day, highlight=day, cache=cache)
+        assert out["rows"] == store.site_rows(db, sid, as_of=day, keep_day=day)
+    assert new["uuid"] not in {p["key"] for spec in out["specs"] for s in spec["series"]
+                               for p in s["points"]}
 
 
 def test_thinning_keeps_every_bucket_extreme_by_calendar_time():

@@ -40,8 +40,8 @@ def _f(x: float) -> str:
 def marker_path(shape: str, x: float, y: float, r: float = 4.5) -> str:
     """Path data of a marker of ``shape`` centred on (x, y)."""
     if shape == "circle":
-        return (f"M{_f(x - r)},{_f(y)}a{r:.1f},{r:.1f} 0 1,0 {2 * r:.1f},0"
-                f"a{r:.1f},{r:.1f} 0 1,0 {-2 * r:.1f},0Z")
+        return (f"M{_f(x - r)},{_f(y)}a{r:g} {r:g} 0 1 0 {2 * r:g} 0"
+                f"a{r:g} {r:g} 0 1 0-{2 * r:g} 0Z")
     if shape == "square":
         s = r * 0.9
         return f"M{_f(x - s)},{_f(y - s)}h{2 * s:.1f}v{2 * s:.1f}h{-2 * s:.1f}Z"
@@ -65,28 +65,33 @@ def _style(i: int) -> tuple[str, bool, str, str]:
     return SERIES_STYLES[i % len(SERIES_STYLES)]
 
 
-def _mark(i: int, x: float, y: float, key, label: str, flagged: bool) -> str:
-    """One reading's marker (and a dashed ring when flagged). Its fill and
-    stroke come from its series' group (:func:`marks_group`): a long series
-    repeats no paint attributes per mark."""
+def _mark(i: int, x: float, y: float, key, label: str, flagged: bool) -> tuple[str, str]:
+    """One reading's marker, and its dashed ring when flagged (else ''). The
+    paint of both comes from the groups :func:`marks_group` puts them in: a
+    long series repeats no paint attributes per mark."""
     shape = _style(i)[0]
     cls = "mark flagged" if flagged else "mark"
-    ring = ""
-    if flagged:
-        ring = (f'<circle class="flag-ring" cx="{_f(x)}" cy="{_f(y)}" r="8.5" fill="none" '
-                f'stroke="#000" stroke-width="1.3" stroke-dasharray="2.5 1.8"/>')
-    return (f'{ring}<path class="{cls}" data-series="{i}" data-key="{esc(key)}" '
-            f'd="{marker_path(shape, x, y)}"><title>{esc(label)}</title></path>')
+    ring = f'<circle class="flag-ring" cx="{_f(x)}" cy="{_f(y)}" r="8.5"/>' if flagged else ""
+    return ring, (f'<path class="{cls}" data-key="{esc(key)}" '
+                  f'd="{marker_path(shape, x, y)}"><title>{esc(label)}</title></path>')
 
 
-def marks_group(i: int, marks: list[str]) -> str:
-    """The markers of series ``i`` in one group that paints them: filled or
-    white with the series colour as outline (a cross is a stroke only), so a
-    chart printed in black and white still tells the series apart."""
+#: The paint of every flag ring (a dashed black circle around the mark).
+RING_PAINT = 'fill="none" stroke="#000" stroke-width="1.3" stroke-dasharray="2.5 1.8"'
+
+
+def marks_group(i: int, marks: list[tuple[str, str]]) -> str:
+    """The markers of series ``i`` (pairs from :func:`_mark`) in one group that
+    names the series (``data-series``) and paints them: filled or white with the series colour as outline (a cross
+    is a stroke only), so a chart printed in black and white still tells the
+    series apart; their flag rings in a group of their own, behind them."""
     shape, filled, _, colour = _style(i)
     fill = "none" if shape == "cross" else colour if filled else "#ffffff"
-    return (f'<g class="series-marks" fill="{fill}" stroke="{colour}" stroke-width="1.6">'
-            + "".join(marks) + "</g>")
+    rings = "".join(r for r, _ in marks)
+    return ((f'<g class="flag-rings" {RING_PAINT}>{rings}</g>' if rings else "")
+            + f'<g class="series-marks" data-series="{i}" fill="{fill}" stroke="{colour}" '
+            'stroke-width="1.6">'
+            + "".join(m for _, m in marks) + "</g>")
 
 
 def _legend(items: list[tuple[str, str]], x0: float, y0: float, width: float,

@@ -31,7 +31,8 @@ from .meters import (get_meter, insert_calibration, insert_meter, last_calibrati
                      list_calibrations, list_meters)  # noqa: F401
 from .views import (delete_target, get_visit, list_targets, readings_for_visit,
                     save_target, view_readings, visits_for_site)  # noqa: F401
-from .site_views import day_totals, flagged_rows, next_day, picked_rows  # noqa: F401
+from .site_views import (SiteCache, day_totals, flagged_rows, log_state, next_day,
+                         picked_rows)  # noqa: F401
 from .site_select import site_rows  # noqa: F401
 from .pairing import (active_pairing_codes, add_pairing_failure, device_by_token,
                       device_reading_counts, devices_paired_with, insert_device,

@@ -133,15 +133,15 @@ def readings_page(conn, site_id: int | None = None, sample: str | None = None,
     return rows, nxt
 
 
-def sites_page(conn, limit: int = PAGE_DEFAULT, after: str | None = None
-               ) -> tuple[list[sqlite3.Row], str | None]:
-    """One page of :func:`list_sites` (by name, case ignored, then id) and the
-    next page's cursor."""
+def sites_page(conn, limit: int = PAGE_DEFAULT, after: str | None = None,
+               counts: bool = True) -> tuple[list[sqlite3.Row], str | None]:
+    """One page of :func:`list_sites` (by name, case ignored, then id; its
+    ``counts``) and the next page's cursor."""
     where, args = "", []
     if after is not None:
         name, sid = decode_cursor(after, (str, int))
         where, args = "WHERE (s.name COLLATE NOCASE, s.id) > (?, ?)", [name, sid]
-    rows = list_sites(conn, where=where, args=args, limit=limit + 1)
+    rows = list_sites(conn, where=where, args=args, limit=limit + 1, counts=counts)
     more = len(rows) > limit
     rows = rows[:limit]
     nxt = encode_cursor(rows[-1]["name"], rows[-1]["id"]) if more and rows else None

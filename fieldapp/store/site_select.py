@@ -18,12 +18,23 @@ FEED_LEACHATE_KEYS = 50
 
 
 def site_rows(conn, site_id: int, as_of: str | None = None,
-              keep_day: str | None = None) -> dict:
+              keep_day: str | None = None, cache=None) -> dict:
     """What the site views of one site read, up to ``as_of``: the counts,
     the rows of each part of the summary, the feed/leachate days, the
     profile's rows and each chart series' candidates (``keep_day``: the day
-    whose points a report keeps)."""
-    tot = day_totals(conn, site_id, as_of)
+    whose points a report keeps). ``cache``: a :class:`site_views.SiteCache`
+    that keeps the day totals and flagged readings between calls."""
+    if cache is None:
+        return _site_rows(conn, site_id, as_of, keep_day, day_totals(conn, site_id, as_of), None)
+
+    def make(every_day, every_flagged):
+        tot = [t for t in every_day if as_of is None or t["day"] <= as_of]
+        flagged = [r for r in every_flagged if as_of is None or r["taken_at"][:10] <= as_of]
+        return _site_rows(conn, site_id, as_of, keep_day, tot, flagged)
+    return cache.rows(conn, site_id, (as_of, keep_day), make)
+
+
+def _site_rows(conn, site_id: int, as_of, keep_day, tot: list[dict], flagged) -> dict:
     out = {"n_readings": reading_count(conn, site_id), "n_current": sum(t["n"] for t in tot),
            "last_date": max((t["day"] for t in tot), default=None)}
     valued = [t for t in tot if t["n_y"]]
@@ -37,7 +48,8 @@ def site_rows(conn, site_id: int, as_of: str | None = None,
     out["substrate"] = [r for r in rows if r["sample"] in SUBSTRATE]
     out["profile"] = [r for r in out["soil"] if r["depth_cm"] is not None]
     out["greenhouse_days"] = _feed_leachate_days(conn, site_id, valued)
-    out["soil_series"], out["sol_series"] = _chart_series(conn, site_id, valued, as_of, keep_day)
+    out["soil_series"], out["sol_series"] = _chart_series(conn, site_id, valued, as_of, keep_day,
+                                                          flagged)
     return out
 
 
@@ -106,7 +118,7 @@ def _feed_leachate_days(conn, site_id: int, valued: list[dict]) -> list[dict]:
     return days
 
 
-def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
+def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day, flagged=None):
     """Each chart series as (depth or kind, candidate rows, n): a series up to
     :data:`MOST_POINTS` readings whole, a longer one as the readings holding
     each time bucket's lowest and highest value (the first of each, by time),
@@ -125,7 +137,9 @@ def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
     rows = picked_rows(conn, site_id, picks, keys_only=True)
     if any(n > MOST_POINTS for n in sizes.values()):
         seen = {r["id"] for r in rows}
-        rows += [r for r in flagged_rows(conn, site_id, as_of) if r["id"] not in seen]
+        if flagged is None:
+            flagged = flagged_rows(conn, site_id, as_of)
+        rows += [r for r in flagged if r["id"] not in seen]
         rows.sort(key=lambda r: (r["taken_at"], r["id"]))
     soil = [(k[1], [r for r in rows if r["sample"] in SOIL and r["depth_cm"] == k[1]
                     and r["ece_dS_m"] is not None], sizes[k])
@@ -136,13 +150,19 @@ def _chart_series(conn, site_id: int, valued: list[dict], as_of, keep_day):
 
 
 def _series_picks(key, by_day: dict, thin: bool, keep_day, day_buckets) -> list[tuple]:
-    kinds = SOIL if key[0] == "soil" else (key[1],)
-    depth = key[1] if key[0] == "soil" else ...
+    """The picks of one chart series: every reading when short; else its first
+    and last day and ``keep_day`` whole, and each bucket's lowest and highest
+    value, each asked of the sample kinds (and depths) that hold it that day
+    only. A depth is always named, even for a solution series drawn over every
+    depth: a pick of one depth walks the covering index of schema 019, a pick
+    of any depth read each reading of the day whole."""
     days = sorted(by_day)
     if not thin:
-        return [_pick(k, days[0], depth, last_day=days[-1]) for k in kinds]
+        groups = sorted({(t["sample"], t["depth_cm"]) for d in days for t in by_day[d]},
+                        key=lambda g: (g[0], g[1] is None, g[1] or 0))
+        return [_pick(k, days[0], depth, last_day=days[-1]) for k, depth in groups]
     whole = {days[0], days[-1]} | ({keep_day} & set(days))
-    picks = [_pick(k, d, depth) for d in whole for k in kinds]
+    picks = [_pick(t["sample"], d, t["depth_cm"]) for d in whole for t in by_day[d]]
     bucket = day_buckets(days, max(1, MOST_POINTS // 2))
     ext: dict[int, dict] = {}
     for d in days:                            # oldest first: the first extreme of a bucket wins
@@ -154,6 +174,9 @@ def _series_picks(key, by_day: dict, thin: bool, keep_day, day_buckets) -> list[
         if hi > e["hi"][0]:
             e["hi"] = (hi, d)
     for e in ext.values():
-        for y, d in (e["lo"], e["hi"]):
-            picks += [_pick(k, d, depth, y=y) for k in kinds]
+        (lo, d_lo), (hi, d_hi) = e["lo"], e["hi"]
+        picks += [_pick(t["sample"], d_lo, t["depth_cm"], y=lo) for t in by_day[d_lo]
+                  if t["lo"] == lo]
+        picks += [_pick(t["sample"], d_hi, t["depth_cm"], y=hi) for t in by_day[d_hi]
+                  if t["hi"] == hi]
     return picks

@@ -26,6 +26,7 @@ import datetime as dt
 from collections import defaultdict
 
 from .core import VIEW_COLUMNS
+from .sites import open_flag_counts
 
 SOIL = ("paste", "extract")
 SOLUTIONS = ("water", "feed", "leachate", "drain", "sme", "media")
@@ -52,19 +53,42 @@ def next_day(day: str) -> str:
 
 
 def _before(as_of: str | None) -> tuple[str, tuple]:
-    return ("", ()) if as_of is None else (" AND r.taken_at < ?", (next_day(as_of),))
+    """Readings up to the end of day ``as_of``, written on the day itself
+    (``substr``) rather than as a range of ``taken_at``: a range would lead
+    SQLite to the (site_id, taken_at) index, which is not covering, so every
+    reading of the site would be read whole with its result JSON (3x slower
+    on a site of 25,000 readings); the day test keeps the pass on the
+    covering index of schema 019."""
+    return ("", ()) if as_of is None else (" AND substr(r.taken_at, 1, 10) <= ?", (as_of,))
 
 
-def day_totals(conn, site_id: int, as_of: str | None = None) -> list[dict]:
+def _ids(ids: tuple | None) -> tuple[str, tuple]:
+    """Readings with ``ids[0] < id <= ids[1]`` (``ids[0]`` None: from the first)."""
+    if ids is None:
+        return "", ()
+    lo, hi = ids
+    if lo is None:   # "+ 0": not a range SQLite would walk the (site_id, id) index for
+        return " AND r.id + 0 <= ?", (hi,)
+    return " AND r.id > ? AND r.id <= ?", (lo, hi)
+
+
+def day_totals(conn, site_id: int, as_of: str | None = None,
+               ids: tuple | None = None) -> list[dict]:
     """For each sample kind, depth and day (up to ``as_of``): how many current
     readings (``n``), how many with a value (``n_y``) and their lowest,
-    highest and mean value (ECe for soil, EC at 25 °C for solutions)."""
+    highest, summed and mean value (ECe for soil, EC at 25 °C for
+    solutions). ``ids``: of the readings in that range of ids only
+    (:func:`_ids`; what :class:`SiteCache` counts or adds to totals it holds)."""
     cond, args = _before(as_of)
+    cond2, args2 = _ids(ids)
     sql = (f"SELECT r.sample, r.depth_cm, substr(r.taken_at, 1, 10) AS day, COUNT(*) AS n, "
-           f"COUNT({_Y}) AS n_y, MIN({_Y}) AS lo, MAX({_Y}) AS hi, AVG({_Y}) AS mean "
-           f"FROM readings r WHERE r.site_id = ?{cond} AND {_CURRENT} "
+           f"COUNT({_Y}) AS n_y, MIN({_Y}) AS lo, MAX({_Y}) AS hi, SUM({_Y}) AS total "
+           f"FROM readings r WHERE r.site_id = ?{cond}{cond2} AND {_CURRENT} "
            f"GROUP BY r.sample, r.depth_cm, substr(r.taken_at, 1, 10) ORDER BY day")
-    return [dict(zip(row.keys(), row)) for row in conn.execute(sql, (site_id, *args))]
+    out = [dict(zip(row.keys(), row)) for row in conn.execute(sql, (site_id, *args, *args2))]
+    for t in out:
+        t["mean"] = t["total"] / t["n_y"] if t["n_y"] else None
+    return out
 
 
 def reading_count(conn, site_id: int) -> int:
@@ -114,16 +138,19 @@ def picked_rows(conn, site_id: int, picks, keys_only: bool = False) -> list[dict
     return _with_flags(conn, sorted(found.values(), key=lambda r: (r["taken_at"], r["id"])))
 
 
-def flagged_rows(conn, site_id: int, as_of: str | None = None) -> list[dict]:
-    """Current readings with a value (up to ``as_of``) that carry a warning or
-    an error, as chart points (``_KEY_COLS``): a chart keeps every one."""
+def flagged_rows(conn, site_id: int, as_of: str | None = None,
+                 ids: tuple | None = None) -> list[dict]:
+    """Current readings with a value (up to ``as_of``; in ``ids``, :func:`_ids`)
+    that carry a warning or an error, as chart points (``_KEY_COLS``): a
+    chart keeps every one."""
     cond, args = _before(as_of)
+    cond2, args2 = _ids(ids)
     sql = (f"SELECT {_KEY_COLS} FROM readings r "
-           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond} AND r.flags <> '' "
-           f"AND {_Y} IS NOT NULL AND {_CURRENT} "
+           f"WHERE r.site_id = ? AND r.sample IN {SOIL + SOLUTIONS!r}{cond}{cond2} "
+           f"AND r.flags <> '' AND {_Y} IS NOT NULL AND {_CURRENT} "
            f"AND EXISTS (SELECT 1 FROM reading_flags f WHERE f.reading_id = r.id "
            f"AND f.severity IN ('warning', 'error'))")
-    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args))]
+    rows = [dict(zip(r.keys(), r)) for r in conn.execute(sql, (site_id, *args, *args2))]
     return _with_flags(conn, sorted(rows, key=lambda r: (r["taken_at"], r["id"])))
 
 
@@ -143,3 +170,162 @@ def _with_flags(conn, rows: list[dict]) -> list[dict]:
         r["flag_list"] = [{"code": c, "severity": sev[r["id"]].get(c)} for c in r["flags"]]
         r["status"] = "current"
     return rows
+
+
+# ---------------------------------------------------------------- kept between requests
+
+def log_state(conn, site_id: int) -> tuple:
+    """What tells whether a site's current readings changed: its newest
+    reading id, and how many voids and corrections the log holds (a void or a
+    correction takes a reading out of "current"; readings are never updated
+    or deleted, so nothing else can). Three index lookups."""
+    return tuple(conn.execute(
+        "SELECT (SELECT MAX(id) FROM readings WHERE site_id = ?), (SELECT COUNT(*) FROM voids), "
+        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL)",
+        (site_id,)).fetchone())
+
+
+def log_flag_state(conn) -> tuple:
+    """What tells whether the sites list's "to check" counts changed: the
+    newest reading id and how many voids, corrections and acknowledgements
+    the log holds."""
+    return tuple(conn.execute(
+        "SELECT (SELECT MAX(id) FROM readings), (SELECT COUNT(*) FROM voids), "
+        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL), "
+        "(SELECT COUNT(*) FROM flag_acks)").fetchone())
+
+
+def reading_counts(conn, ids: tuple) -> dict[int, int]:
+    """Per site, how many reading versions have ``ids[0] < id <= ids[1]``
+    (:func:`_ids`; every version, as ``list_sites`` counts them)."""
+    cond, args = _ids(ids)
+    return dict(tuple(r) for r in conn.execute(
+        f"SELECT r.site_id, COUNT(*) FROM readings r WHERE 1 = 1{cond} GROUP BY r.site_id", args))
+
+
+def _merge_totals(old: list[dict], new: list[dict]) -> list[dict]:
+    """Day totals of older readings and of newer ones as the totals of both."""
+    by_key = {(t["sample"], t["depth_cm"], t["day"]): dict(t) for t in old}
+    for t in new:
+        k = (t["sample"], t["depth_cm"], t["day"])
+        o = by_key.get(k)
+        if o is None:
+            by_key[k] = dict(t)
+            continue
+        o["n"] += t["n"]
+        if t["n_y"]:
+            o["lo"] = t["lo"] if o["lo"] is None else min(o["lo"], t["lo"])
+            o["hi"] = t["hi"] if o["hi"] is None else max(o["hi"], t["hi"])
+            o["total"] = (o["total"] or 0.0) + t["total"]
+            o["n_y"] += t["n_y"]
+            o["mean"] = o["total"] / o["n_y"]
+    return sorted(by_key.values(), key=lambda t: t["day"])
+
+
+#: Answers of site_rows kept per site (the site page's and a report's or two).
+MOST_KEPT_VIEWS = 3
+
+
+class SiteCache:
+    """The day totals and flagged readings of recently viewed sites, kept
+    between requests so that a site page does not walk all of a site's
+    readings again each time (25,000 at a busy site). Checked against
+    :func:`log_state` on every use: readings saved since are added from a
+    query over them alone; a void or a correction anywhere in the log makes
+    the site's totals be counted afresh. At most ``most`` sites are kept (the
+    least recently viewed goes first), each with the rows its views last
+    read (:meth:`rows`); every site's reading count (:meth:`reading_counts`)
+    and the sites list's "to check" counts (:meth:`open_flags`) are kept the
+    same way. Safe to share between threads."""
+
+    def __init__(self, most: int = 32):
+        import threading
+        from collections import OrderedDict
+        self.most = most
+        self._sites: OrderedDict = OrderedDict()
+        self._lock = threading.Lock()
+
+    def site(self, conn, site_id: int) -> tuple[list[dict], list[dict]]:
+        """(day totals, flagged readings) of every day of the site, oldest first."""
+        return self._site(conn, site_id)[:2]
+
+    def rows(self, conn, site_id: int, key, make):
+        """What ``make(totals, flagged)`` gives (``site_select.site_rows``'s
+        answer for ``key``: its as_of and keep_day), kept while the site's
+        readings stay as they are (at most :data:`MOST_KEPT_VIEWS` per site).
+        Read-only: every caller shares it."""
+        totals, flagged, kept = self._site(conn, site_id)
+        if key not in kept:
+            while len(kept) >= MOST_KEPT_VIEWS:
+                kept.pop(next(iter(kept)), None)
+            kept[key] = make(totals, flagged)
+        return dict(kept[key])
+
+    def _site(self, conn, site_id: int) -> tuple[list[dict], list[dict], dict]:
+        state = log_state(conn, site_id)
+        with self._lock:
+            held = self._sites.get(site_id)
+        top = state[0]
+        if top is None:                       # no reading at the site
+            return [], [], {}
+        if held is not None and held[0] == state:
+            return held[1], held[2], held[3]
+        if held is not None and held[0][1:] == state[1:] and held[0][0] < top:
+            # only readings saved since: add theirs (ids bound the queries, so a
+            # reading saved during this request is left for the next one)
+            ids = (held[0][0], top)
+            totals = _merge_totals(held[1], day_totals(conn, site_id, ids=ids))
+            flagged = sorted(held[2] + flagged_rows(conn, site_id, ids=ids),
+                             key=lambda r: (r["taken_at"], r["id"]))
+        else:
+            ids = (None, top)
+            totals, flagged = day_totals(conn, site_id, ids=ids), flagged_rows(conn, site_id, ids=ids)
+        kept: dict = {}
+        self._keep(site_id, (state, totals, flagged, kept))
+        return totals, flagged, kept
+
+    def open_flags(self, conn, site_ids) -> dict[int, int]:
+        """``store.open_flag_counts`` of these sites, from counts of the whole
+        log kept like the day totals (readings saved since are counted alone;
+        a void, correction or acknowledgement counts afresh)."""
+        state = log_flag_state(conn)
+        with self._lock:
+            held = self._sites.get("open_flags")
+        if state[0] is None:
+            counts = {}
+        elif held is not None and held[0] == state:
+            counts = held[1]
+        elif held is not None and held[0][1:] == state[1:] and held[0][0] < state[0]:
+            counts = dict(held[1])
+            for sid, n in open_flag_counts(conn, ids=(held[0][0], state[0])).items():
+                counts[sid] = counts.get(sid, 0) + n
+        else:
+            counts = open_flag_counts(conn, ids=(0, state[0]))
+        self._keep("open_flags", (state, counts))
+        return {s: counts[s] for s in site_ids if counts.get(s)}
+
+    def reading_counts(self, conn) -> dict[int, int]:
+        """Every site's count of reading versions, kept between requests:
+        readings are never deleted, so readings saved since are counted alone."""
+        top = conn.execute("SELECT MAX(id) FROM readings").fetchone()[0]
+        with self._lock:
+            held = self._sites.get("reading_counts")
+        if top is None:
+            return {}
+        if held is not None and held[0] == top:
+            return held[1]
+        if held is not None and held[0] < top:
+            counts = dict(held[1])
+            for sid, n in reading_counts(conn, (held[0], top)).items():
+                counts[sid] = counts.get(sid, 0) + n
+        else:
+            counts = reading_counts(conn, (None, top))
+        self._keep("reading_counts", (top, counts))
+        return counts
+
+    def _keep(self, key, value) -> None:
+        with self._lock:
+            self._sites[key] = value
+            self._sites.move_to_end(key)
+            while len(self._sites) > self.most:
+                self._sites.popitem(last=False)

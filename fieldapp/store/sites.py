@@ -143,13 +143,16 @@ def site_by_former_name(conn, name: str) -> sqlite3.Row | None:
     return conn.execute("SELECT * FROM sites WHERE id = ?", (row[0],)).fetchone()
 
 
-def list_sites(conn, where: str = "", args=(), limit: int | None = None
-               ) -> list[sqlite3.Row]:
+def list_sites(conn, where: str = "", args=(), limit: int | None = None,
+               counts: bool = True) -> list[sqlite3.Row]:
     """Every site (or, with ``where``/``limit``, one page of them: see
-    :func:`sites_page`) with its reading count and latest current reading."""
-    return conn.execute("""
+    :func:`sites_page`) with its reading count and latest current reading.
+    ``counts=False``: ``n_readings`` is NULL (counting walks every reading of
+    the log; ``store.SiteCache.reading_counts`` keeps the counts)."""
+    n = "(SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id)" if counts else "NULL"
+    return conn.execute(f"""
         SELECT s.*,
-               (SELECT COUNT(*) FROM readings r WHERE r.site_id = s.id) AS n_readings,
+               {n} AS n_readings,
                l.taken_at AS last_taken_at, l.sample AS last_sample, l.value AS last_value,
                l.unit AS last_unit, l.ec25_dS_m AS last_ec25_dS_m, l.ece_dS_m AS last_ece_dS_m,
                l.flags AS last_flags
@@ -163,18 +166,23 @@ def list_sites(conn, where: str = "", args=(), limit: int | None = None
         list(args) + ([limit] if limit else [])).fetchall()
 
 
-def open_flag_counts(conn, site_ids=None) -> dict[int, int]:
+def open_flag_counts(conn, site_ids=None, ids: tuple | None = None) -> dict[int, int]:
     """Per site, how many current readings carry an error-level flag that
     nobody has acknowledged (a reading saved where the page could not check
     it: the sites list marks it until a correction or an acknowledgement
     settles it; "Save anyway" on the page acknowledges at once). ``site_ids``:
-    only these sites (the page of the sites list being shown)."""
+    only these sites (the page of the sites list being shown); ``ids``
+    (lo, hi): only readings with lo < id <= hi (``store.SiteCache`` adds
+    readings saved since)."""
     only, args = "", []
+    if ids is not None:
+        only, args = "AND f.reading_id > ? AND f.reading_id <= ? ", [ids[0], ids[1]]
     if site_ids is not None:
         site_ids = list(site_ids)
         if not site_ids:
             return {}
-        only, args = f"AND r.site_id IN ({','.join('?' * len(site_ids))})", site_ids
+        only += f"AND r.site_id IN ({','.join('?' * len(site_ids))})"
+        args += site_ids
     # reading_flags (schema 014): the error-level rows through their index,
     # then three unique-index probes each; no JSON is read.
     rows = conn.execute("""

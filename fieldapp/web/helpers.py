@@ -1,5 +1,5 @@
 """What the blueprints share: a site by id or a 404, the JSON body, the calibration age limit, dates
-in query strings, and paged lists."""
+in query strings, paged lists, and the site views' cache."""
 from __future__ import annotations
 
 import datetime as dt
@@ -34,6 +34,15 @@ def max_age_days() -> float:
     """How old a meter's last calibration check may be (serve --check-days)."""
     return float(current_app.config.get("CALIBRATION_MAX_AGE_DAYS",
                                         meters.DEFAULT_MAX_AGE_DAYS))
+
+
+def site_cache():
+    """The app's :class:`store.SiteCache`: the day totals of recently viewed
+    sites, kept between requests (checked against the log on every use)."""
+    ext = current_app.extensions
+    if "fieldapp.site_cache" not in ext:
+        ext.setdefault("fieldapp.site_cache", store.SiteCache())
+    return ext["fieldapp.site_cache"]
 
 
 def api_date(v, field):

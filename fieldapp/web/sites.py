@@ -10,7 +10,7 @@ from .. import store
 from ..science import extracts, tolerance
 from ..results import CAUTIONS
 from .db import get_db
-from .helpers import json_body, page_date, paged, site_by_id
+from .helpers import json_body, page_date, paged, site_by_id, site_cache
 from .views import site_view
 
 bp = Blueprint("sites", __name__)
@@ -26,6 +26,13 @@ def _settings_meta() -> dict:
             "textures": list(extracts.TEXTURES)}
 
 
+def _with_counts(db, rows) -> list[dict]:
+    """Sites listed without their reading counts, with the counts kept
+    between requests (``store.SiteCache.reading_counts``)."""
+    counts = site_cache().reading_counts(db)
+    return [{**dict(r), "n_readings": counts.get(r["id"], 0)} for r in rows]
+
+
 # ------------------------------------------------------------------ pages
 
 @bp.get("/sites")
@@ -33,11 +40,12 @@ def sites_page():
     db = get_db()
     after = request.args.get("after") or None
     try:
-        rows, nxt = store.sites_page(db, limit=SITES_PER_PAGE, after=after)
+        rows, nxt = store.sites_page(db, limit=SITES_PER_PAGE, after=after, counts=False)
     except store.PageError:
         abort(404)
+    rows = _with_counts(db, rows)
     return render_template("sites.html", sites=rows, kind_label=sitecfg.kind_label,
-                           to_check=store.open_flag_counts(db, [s["id"] for s in rows]),
+                           to_check=site_cache().open_flags(db, [s["id"] for s in rows]),
                            next_url=nxt and url_for("sites.sites_page", after=nxt),
                            first_url=after and url_for("sites.sites_page"))
 
@@ -101,9 +109,10 @@ def site_log(site_id):
 
 @bp.get("/api/sites")
 def list_sites():
-    rows, nxt = store.sites_page(get_db(), limit=store.page_limit(request.args.get("limit")),
-                                 after=request.args.get("after") or None)
-    return paged([sitecfg.site_dict(r) for r in rows], nxt)
+    db = get_db()
+    rows, nxt = store.sites_page(db, limit=store.page_limit(request.args.get("limit")),
+                                 after=request.args.get("after") or None, counts=False)
+    return paged([sitecfg.site_dict(r) for r in _with_counts(db, rows)], nxt)
 
 
 @bp.post("/api/sites")

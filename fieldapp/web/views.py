@@ -17,7 +17,7 @@ from .. import sites as sitecfg
 from ..science import InputError, extracts, tolerance
 from . import Later
 from .db import get_db
-from .helpers import max_age_days, site_by_id
+from .helpers import max_age_days, site_by_id, site_cache
 
 charts = Later("fieldapp.charts")
 interpret = Later("fieldapp.interpret")
@@ -34,7 +34,7 @@ def interpretation(db, site, targets, as_of: str | None = None, highlight: str |
                    highlight_at: str | None = None) -> tuple[dict, list[dict], dict | None]:
     """The summary, the chart data and the profile of a site, up to ``as_of``,
     from the few rows the database picks for them (``store.site_rows``)."""
-    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight)
+    rows = store.site_rows(db, site["id"], as_of=as_of, keep_day=highlight, cache=site_cache())
     summary = interpret.summary_from_rows(site, rows, targets, as_of=as_of)
     specs = interpret.specs_from_series(site, rows["soil_series"], rows["sol_series"], targets,
                                         highlight=highlight, highlight_at=highlight_at)
@@ -60,7 +60,6 @@ def site_view(db, site) -> dict:
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
     summary, specs, prof = interpretation(db, site, targets)
-    visits = store.visits_for_site(db, site["id"])
     return {
         "s": summary,
         "charts": _chart_figures(specs),
@@ -71,7 +70,7 @@ def site_view(db, site) -> dict:
         "report_url": url_for("views.report", site_id=site["id"]),
         "settings_url": url_for("sites.site_settings", site_id=site["id"]),
         "map_url": url_for("views.map_page"),
-        "has_visits": bool(visits),
+        "has_visits": bool(summary["n_readings"]),   # every reading belongs to a visit
         "water_bounds": tolerance.WATER_HAZARD_BOUNDS_dS_m,
     }
 
@@ -201,7 +200,7 @@ def map_data(site_rows) -> dict:
 @bp.get("/map")
 def map_page():
     db = get_db()
-    sites = store.list_sites(db)
+    sites = store.list_sites(db, counts=False)      # the map shows no counts
     data = map_data(sites)
     return render_template("map.html", m=data, all_sites=sites,
                            points=[{k: p[k] for k in ("n", "name", "lat", "lon", "id")}
