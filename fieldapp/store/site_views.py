@@ -236,7 +236,13 @@ class SiteCache:
     least recently viewed goes first), each with the rows its views last
     read (:meth:`rows`); every site's reading count (:meth:`reading_counts`)
     and the sites list's "to check" counts (:meth:`open_flags`) are kept the
-    same way. Safe to share between threads."""
+    same way. Safe to share between threads.
+
+    It relies on ids being given in commit order, so that an id at or below
+    the newest one seen is never new: one writer at a time on both backends
+    (SQLite's BEGIN IMMEDIATE; on PostgreSQL the advisory write lock that
+    ``store.transaction`` takes before any insert). A writer that bypassed
+    ``store.transaction`` would break that."""
 
     def __init__(self, most: int = 32):
         import threading
