@@ -223,3 +223,20 @@ def test_import_reads_lines_as_the_csv_module_does(client, tmp_path, ending):
     for rec, note in zip(made, notes):
         assert store.get_reading(conn, rec["uuid"])["note"] == note
     conn.close()
+
+
+@pytest.mark.parametrize("ending", ["\r\n", "\r"])
+@pytest.mark.parametrize("block", [1, 2, 7])
+def test_lines_split_across_read_blocks_are_read_whole(client, monkeypatch, ending, block):
+    """The import reads the file a block at a time; a line (or a CRLF) cut by
+    a block's end reads as csv.reader reads the whole text (the reference)."""
+    from fieldapp.csvio import reading
+    add(client, value="2.5", note="a\r\nnote")
+    add(client, value="3.5", note="plain")
+    rows = list(csv.reader(io.StringIO(export_text(client)[1:], newline="")))
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator=ending).writerows(rows)
+    monkeypatch.setattr(reading, "_READ_BLOCK", block)
+    got = reading.read_export(io.StringIO("\ufeff" + buf.getvalue(), newline=""))
+    assert [r["note"] for r in got] == [r[rows[0].index("note")] for r in rows[1:]]
+    assert len(got) == 2

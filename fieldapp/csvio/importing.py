@@ -110,8 +110,8 @@ def _merge(conn, rows, digest: str) -> dict:
         with store.transaction(conn):
             clash = store.import_clashes(conn, job["id"])
             if clash is None:
-                store.set_import_depths(conn, job["id"], [(depth[e.uuid], e.seq)
-                                                          for e in plan.fresh
+                store.set_import_depths(conn, job["id"], [(depth[e.uuid], seq) for seq, e
+                                                          in enumerate(plan.fresh)
                                                           if depth[e.uuid]])
                 try:
                     added = store.finish_import_job(conn, job["id"])
@@ -140,8 +140,7 @@ def _stage_all(conn, job: dict, plan: Plan, rows) -> ImportError_ | None:
     after the checks of the whole file."""
     done, seq, pending, late = job["rows_staged"], 0, [], None
     for block in _blocks(rows, IMPORT_CHUNK):
-        for r in plan.add_block(block):
-            plan.by_uuid[r["uuid"]].seq = seq
+        for r in plan.add_block(block):     # seq: rows new to the log so far
             seq += 1
             if seq > done and late is None and plan.error is None:
                 pending.append(r)

@@ -25,12 +25,15 @@ def _refusal(msg: str, field: str = "file") -> ImportError_:
 
 
 class _Entry:
-    """What the plan keeps of one reading of the file."""
-    __slots__ = ("uuid", "supersedes_uuid", "site", "status", "line", "same", "seq")
+    """What the plan keeps of one reading of the file (site and status texts
+    are shared between entries: ``words``)."""
+    __slots__ = ("uuid", "supersedes_uuid", "site", "status", "line", "same")
 
-    def __init__(self, r: dict, same: int):
-        self.uuid, self.supersedes_uuid, self.site = r["uuid"], r["supersedes_uuid"], r["site"]
-        self.status, self.line, self.same, self.seq = r["status"], r["_line"], same, None
+    def __init__(self, r: dict, same: int, words: dict):
+        self.uuid, self.supersedes_uuid = r["uuid"], r["supersedes_uuid"]
+        self.site = words.setdefault(r["site"], r["site"])
+        self.status = words.setdefault(r["status"], r["status"])
+        self.line, self.same = r["_line"], same
 
 
 class Plan:
@@ -49,7 +52,8 @@ class Plan:
     def __init__(self, conn):
         self.conn = conn
         self.by_uuid: dict[str, _Entry] = {}      # every reading of the file, in file order
-        self.fresh: list[_Entry] = []             # those new to the log
+        self.fresh: list[_Entry] = []             # those new to the log; staged in this order
+        self._words: dict[str, str] = {}
         self.targets: dict[str, dict] = {}        # the log's readings the file corrects
         self.marks: list[dict] = []               # rows with acknowledgements or a void
         self.rows = 0
@@ -104,7 +108,7 @@ class Plan:
                     f"lines {first.line} and {r['_line']} carry the same uuid {r['uuid']} "
                     "for different readings.")
             return None
-        e = self.by_uuid[r["uuid"]] = _Entry(r, same)
+        e = self.by_uuid[r["uuid"]] = _Entry(r, same, self._words)
         return e
 
     def finish(self) -> dict[str, int]:

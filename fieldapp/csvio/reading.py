@@ -101,9 +101,9 @@ def _lines(src: IO[str]) -> Iterator[str]:
     tail, first = "", True
     while True:
         piece = src.read(_READ_BLOCK)
-        if first:
-            piece, first = piece[1:] if piece.startswith(BOM) else piece, False
         text = tail + piece
+        if first and piece:
+            text, first = text[1:] if text.startswith(BOM) else text, False
         if not piece:
             yield from (m.group() for m in _LINE_RE.finditer(text))
             return
