@@ -11,7 +11,8 @@ from .columns import COLUMNS
 from .plan import Plan
 from .reading import ImportError_, iter_export
 
-IMPORT_CHUNK = 2000
+#: New rows converted and staged at a time (one short transaction each).
+IMPORT_CHUNK = 5000
 
 
 def _payload(r: dict) -> dict:
@@ -157,7 +158,7 @@ def _stage(conn, job_id: int, first_seq: int, chunk: list[dict]) -> ImportError_
         recs = _convert_chunk(chunk)
     except ImportError_ as e:
         return e
-    with store.transaction(conn):
+    with store.staging_transaction(conn):
         store.stage_import_rows(conn, job_id, first_seq, [(0, rec) for rec in recs])
     return None
 

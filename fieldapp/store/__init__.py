@@ -43,7 +43,8 @@ from .rescue import (SQLITE_HEADER, connect_readonly, inspect_log, integrity_pro
 from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cursor,
                      iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
 from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
-                      set_import_depths, stage_import_rows)  # noqa: F401
+                      set_import_depths, stage_import_rows,
+                      staging_transaction)  # noqa: F401
 from .sync import (clean_person, follow_site, get_setting, list_follows, log_uuid,
                    note_reading_origin, set_setting, unfollow_site)  # noqa: F401
 from .sync_devices import (count_office_devices_of_code, insert_office_device,

@@ -3,9 +3,10 @@ from __future__ import annotations
 
 import datetime as dt
 import sqlite3
+from contextlib import contextmanager
 
 from .core import (COMPUTED_FIELDS, INPUT_FIELDS, VIEW_COLUMNS, StoreError,
-                   _view_values_sql, dialect, utc_now)
+                   _view_values_sql, dialect, transaction, utc_now)
 from .sites import ensure_site
 
 
@@ -57,6 +58,29 @@ def set_import_depths(conn, job_id: int, depths) -> None:
     chains of corrections, once the whole file is read (staged at 0)."""
     conn.executemany("UPDATE import_staging SET depth = ? WHERE job_id = ? AND seq = ?",
                      [(d, job_id, seq) for d, seq in depths])
+
+
+@contextmanager
+def staging_transaction(conn):
+    """The short transaction of one staged chunk, committed without waiting
+    for the disk (SQLite: synchronous NORMAL, in WAL still all or nothing;
+    PostgreSQL: synchronous_commit off). A crash may lose the last chunks
+    staged, never a reading: the job records how far it got in the same
+    transaction, and the next run converts what was lost again. Inside a
+    caller's open transaction it is an ordinary nested one."""
+    own = not conn.in_transaction
+    sqlite = own and dialect(conn) == "sqlite"
+    if sqlite:
+        was = conn.execute("PRAGMA synchronous").fetchone()[0]
+        conn.execute("PRAGMA synchronous = NORMAL")
+    try:
+        with transaction(conn):
+            if own and not sqlite:
+                conn.execute("SET LOCAL synchronous_commit = off")
+            yield conn
+    finally:
+        if sqlite:
+            conn.execute(f"PRAGMA synchronous = {int(was):d}")
 
 
 def drop_import_job(conn, job_id: int) -> None:
