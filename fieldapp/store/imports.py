@@ -127,10 +127,27 @@ def _map_visits(conn, job_id: int) -> None:
                  "v.visited_by = import_map.visited_by)")
 
 
+#: SQLite's page cache while staged rows land (KiB; the connection's own is
+#: 2 MiB): the readings' indexes of a long file then stay in memory instead of
+#: being read back from the disk for every row. Bounded, so memory stays flat.
+LANDING_CACHE_KIB = 65536
+
+
 def finish_import_job(conn, job_id: int) -> int:
     """Move a job's staged rows into readings inside the caller's (short)
     transaction: sites and visits as needed, one INSERT ... SELECT per level
     of corrections (a correction's target is in by then). Returns how many."""
+    if dialect(conn) != "sqlite":
+        return _land(conn, job_id)
+    was = conn.execute("PRAGMA cache_size").fetchone()[0]
+    conn.execute(f"PRAGMA cache_size = {-LANDING_CACHE_KIB:d}")
+    try:
+        return _land(conn, job_id)
+    finally:
+        conn.execute(f"PRAGMA cache_size = {int(was):d}")
+
+
+def _land(conn, job_id: int) -> int:
     conn.execute("CREATE TEMP TABLE IF NOT EXISTS import_map (site TEXT, day TEXT, "
                  "visited_by TEXT, site_id INTEGER, visit_id INTEGER, "
                  "PRIMARY KEY (site, day, visited_by))")
