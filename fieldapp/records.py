@@ -171,8 +171,16 @@ def convert_readings(ds: list[dict]) -> list[dict]:
         arr = np.empty(len(kws), dtype=object)
         arr[:] = cols[k]
         cols[k] = arr
-    out = convert_batch(make_batch(**cols))
+    out = _as_lists(convert_batch(make_batch(**cols)))
     return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
+
+
+def _as_lists(out: dict) -> dict:
+    """The batch's one-dimensional arrays as lists of Python values, read
+    once (``ndarray.tolist``) instead of one numpy scalar per cell; the same
+    numbers and texts (a float64 is a float, a numpy text a str)."""
+    return {k: v.tolist() if isinstance(v, np.ndarray) and v.ndim == 1 else v
+            for k, v in out.items()}
 
 
 def _context(conn, payload, site, max_age_days):
@@ -217,11 +225,15 @@ def with_site_defaults(payload: dict, site) -> dict:
 
 
 def build_record(payload: dict, site=None, conn=None,
-                 max_age_days: float = DEFAULT_MAX_AGE_DAYS, result: dict | None = None) -> dict:
+                 max_age_days: float = DEFAULT_MAX_AGE_DAYS, result: dict | None = None,
+                 fields_checked: bool = False) -> dict:
     """Validate a submitted reading and compute everything; a dict for
     store.insert_reading. Raises InputError or StoreError naming the field.
-    Given a connection the checks see the meter, calibration and history."""
-    check_fields(payload)
+    Given a connection the checks see the meter, calibration and history.
+    ``fields_checked``: the caller ran :func:`check_fields` on this payload
+    already (the import, before its batch conversion)."""
+    if not fields_checked:
+        check_fields(payload)
     rid = str(payload.get("uuid") or "").strip() or str(uuidlib.uuid4())
     if not _UUID_RE.match(rid):
         raise InputError("uuid must be 8 to 64 letters, digits or -_.:", "uuid")

@@ -177,6 +177,21 @@ def test_neutralize_then_unneutralize_gives_back_what_was_typed(s):
             c in FORMULA_SIGNS for c in s.lstrip("".join(INVISIBLE))[:1])
 
 
+@settings(max_examples=200, deadline=None, derandomize=True)
+@given(st.lists(st.none() | st.floats() | st.sampled_from([-0.0, 1e-05, 1e16, 2.0 ** 60]),
+                max_size=40),
+       st.lists(st.none() | st.text(max_size=10) | st.sampled_from(
+           ["1:5", "007", "2026-05-14T09:30:00+02:00", "=1", "a1"]), max_size=40))
+def test_a_column_at_a_time_gives_the_cells_one_at_a_time_does(numbers, texts):
+    # the export's column helpers against the one-cell functions they stand for
+    from fieldapp.csvio.cells import neutralize_all, plain_numbers
+    assert plain_numbers(numbers) == [csvio.plain_number(x) for x in numbers]
+    assert neutralize_all(texts) == [csvio.neutralize(t) for t in texts]
+    times = [t for t in texts if t is not None]
+    cells = csvio.ReadableCells()
+    assert cells.local_texts(times) == [cells.local_text(t) for t in times]
+
+
 def test_a_note_typed_with_an_apostrophe_survives_export_and_import(client, tmp_path):
     a = add(client, value="2.0", note="'=1+1")
     b = add(client, value="2.1", note="'plain")
@@ -208,3 +223,20 @@ def test_import_reads_lines_as_the_csv_module_does(client, tmp_path, ending):
     for rec, note in zip(made, notes):
         assert store.get_reading(conn, rec["uuid"])["note"] == note
     conn.close()
+
+
+@pytest.mark.parametrize("ending", ["\r\n", "\r"])
+@pytest.mark.parametrize("block", [1, 2, 7])
+def test_lines_split_across_read_blocks_are_read_whole(client, monkeypatch, ending, block):
+    """The import reads the file a block at a time; a line (or a CRLF) cut by
+    a block's end reads as csv.reader reads the whole text (the reference)."""
+    from fieldapp.csvio import reading
+    add(client, value="2.5", note="a\r\nnote")
+    add(client, value="3.5", note="plain")
+    rows = list(csv.reader(io.StringIO(export_text(client)[1:], newline="")))
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator=ending).writerows(rows)
+    monkeypatch.setattr(reading, "_READ_BLOCK", block)
+    got = reading.read_export(io.StringIO("\ufeff" + buf.getvalue(), newline=""))
+    assert [r["note"] for r in got] == [r[rows[0].index("note")] for r in rows[1:]]
+    assert len(got) == 2

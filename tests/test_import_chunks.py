@@ -120,3 +120,22 @@ def test_a_save_meanwhile_of_a_staged_uuid_refuses_the_import(source, monkeypatc
     assert conn.execute("SELECT COUNT(*) FROM readings").fetchone()[0] == 1
     assert conn.execute("SELECT COUNT(*) FROM import_staging").fetchone()[0] == 0
     assert conn.execute("SELECT COUNT(*) FROM import_jobs").fetchone()[0] == 0   # job dropped
+
+
+class _Pipe(io.StringIO):
+    """A source that cannot seek (a pipe, an upload read once)."""
+
+    def seekable(self):
+        return False
+
+    def seek(self, *a):
+        raise io.UnsupportedOperation("seek")
+
+
+def test_a_source_that_cannot_seek_imports_the_same(tmp_path, source, log_target):
+    conn = store.connect(log_target)
+    counts = csvio.import_csv(conn, _Pipe(source))
+    assert counts["added"] == 1006 and counts["skipped"] == 0
+    fresh = store.connect(tmp_path / "b.sqlite3")
+    csvio.import_csv(fresh, io.StringIO(source))
+    assert dump(conn) == dump(fresh)

@@ -51,6 +51,10 @@ _CONVERTIBLE_RE = re.compile(r"[\s\d:/.,%-]*\d[\s\d:/.,%-]*(?:[eE][+-]?\d+)?\s*(
 #: A character _CONVERTIBLE_RE never matches: text holding one (a uuid's
 #: letters, the T of a timestamp) is not scanned by it at all.
 _NOT_CONVERTIBLE_RE = re.compile(r"[^\s\d:/.,%\-+eEaApPmM]")
+#: The ASCII characters _CONVERTIBLE_RE can match (those _NOT_CONVERTIBLE_RE
+#: does not): an ASCII text with one character outside them is left whole by
+#: ``str.strip`` of these, a quicker test than the search on a uuid or a time.
+_ASCII_CONVERTIBLE = "".join(c for c in map(chr, range(128)) if not _NOT_CONVERTIBLE_RE.match(c))
 #: Number text a spreadsheet keeps as it was typed.
 _PLAIN_DECIMAL_RE = re.compile(r"(?:0|[1-9]\d{0,14})(?:\.\d*[1-9])?")
 
@@ -79,9 +83,38 @@ def neutralize(text) -> str:
         return ""
     s = str(text)
     c = s[:1]
-    if c.isalnum() and c.isascii() and _NOT_CONVERTIBLE_RE.search(s):
+    if c.isalnum() and c.isascii() and (s.strip(_ASCII_CONVERTIBLE) if s.isascii()
+                                        else _NOT_CONVERTIBLE_RE.search(s)):
         return s        # a visible first character, and a text no spreadsheet converts
     return "'" + s if _needs_prefix(s) else s
+
+
+def neutralize_all(col) -> list[str]:
+    """:func:`neutralize` of every value of a column; the usual cell (ASCII,
+    a letter or digit first, a character no spreadsheet converts) is tested
+    inline."""
+    keep = _ASCII_CONVERTIBLE
+    return [s if type(s) is str and s.isascii() and s[:1].isalnum() and s.strip(keep)
+            else neutralize(s) for s in col]
+
+
+def plain_numbers(col) -> list[str]:
+    """:func:`plain_number` of every value of a column. A column of floats and
+    empties is written by ``repr`` in one join (``fmt.number``'s own rule for
+    a float that needs no exponent: drop a trailing ``.0``, ``-0`` is ``0``);
+    anything else (an exponent, NaN, another type) takes the one formatter."""
+    if not col or not set(map(type, col)) <= _FLOAT_OR_NONE:
+        return list(map(plain_number, col))
+    text = "\n" + "\n".join(map(repr, col)) + "\n"
+    bare = text.replace("None", "")
+    if "e" in bare or "n" in bare:
+        return list(map(plain_number, col))           # 1e-05, nan, inf
+    for old, new in (("\nNone\n", "\n\n"), (".0\n", "\n"), ("\n-0\n", "\n0\n")):
+        text = text.replace(old, new).replace(old, new)   # twice: neighbours share a \n
+    return text[1:-1].split("\n")
+
+
+_FLOAT_OR_NONE = frozenset((float, type(None)))
 
 
 def unneutralize(text: str) -> str:
@@ -176,6 +209,25 @@ class ReadableCells:
         if len(s) == 25 and s[10] == "T" and s[19] in "+-" and s[0] != "0":   # as stored
             return s[:10] + " " + s[11:19]
         return t.strftime("%Y-%m-%d %H:%M:%S")
+
+    def local_texts(self, col) -> list[str]:
+        """:meth:`local_text` of every value of a column; a time as stored
+        (2026-05-14T09:30:00+02:00, read by ``fromisoformat``) is cut inline."""
+        import datetime as dt
+        read = dt.datetime.fromisoformat
+        out = []
+        for s in col:
+            if type(s) is str and len(s) == 25 and s[10] == "T" and s[19] in "+-" \
+                    and s[0] != "0":
+                try:
+                    read(s)
+                except ValueError:
+                    out.append("")
+                else:
+                    out.append(s[:10] + " " + s[11:19])
+            else:
+                out.append(self.local_text(s))
+        return out
 
     def __call__(self, row) -> list[str]:
         n, text = self.ratio(row["ratio"])

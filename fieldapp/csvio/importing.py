@@ -8,10 +8,11 @@ from .. import __version__, store
 from ..science import InputError
 from .cells import _parse_acks
 from .columns import COLUMNS
-from .plan import plan_import
-from .reading import ImportError_, read_export
+from .plan import Plan
+from .reading import ImportError_, iter_export
 
-IMPORT_CHUNK = 2000
+#: New rows converted and staged at a time (one short transaction each).
+IMPORT_CHUNK = 5000
 
 
 def _payload(r: dict) -> dict:
@@ -27,10 +28,22 @@ def _payload(r: dict) -> dict:
 
 
 def import_rows(conn, rows: list[dict]) -> dict:
-    """Merge rows into the log, the whole file or nothing of it. Returns counts.
+    """Merge checked rows (:func:`read_export`) into the log, all of them or
+    none (:func:`import_csv` for a file). Returns counts."""
+    import hashlib
+    h = hashlib.sha256()
+    for r in rows:
+        h.update(repr([r.get(c) for c in COLUMNS]).encode("utf-8", "replace"))
+    return _merge(conn, iter(rows), "rows:" + h.hexdigest())
 
-    The whole file is checked first (:func:`plan_import`): links between rows
-    are resolved after every row is read, so any row order gives the same log.
+
+def import_csv(conn, src: IO[str]) -> dict:
+    """Merge an export file into the log, the whole file or nothing of it.
+    Returns counts (added, skipped, voided).
+
+    The file is read once, a block at a time (:func:`iter_export`), and checked
+    against itself and the log as it goes (:class:`Plan`); links between rows
+    are resolved once every row is read, so any row order gives the same log.
     New rows are converted in chunks by the vectorized core (the result shown
     for each reading); the numbers computed where the reading was taken are
     kept as exported, so a merged log shows the same figures as its source.
@@ -41,61 +54,113 @@ def import_rows(conn, rows: list[dict]) -> dict:
     moves the staged rows into ``readings`` (and adds the file's voids and
     acknowledgements). Staged rows are not readings: a run killed midway has
     added nothing, and running the same file again carries on from the last
-    staged chunk (the job is named by a digest of the rows it adds). Called
-    inside a caller's open transaction it all happens in that transaction."""
-    order, known, _ = plan_import(conn, rows)
-    skipped = len(rows) - len(order)
-    depth = _depths(order)
-    job = _import_job(conn, order)
+    staged chunk (the job is named by a digest of the file; a reading the log
+    gained meanwhile among the staged ones refuses the import, to be run
+    again). A refused file leaves nothing staged. Called inside a caller's
+    open transaction it all happens in that transaction."""
+    src = _rewindable(src)
+    return _merge(conn, iter_export(src), "file:" + _file_digest(src))
+
+
+def _rewindable(src: IO[str]) -> IO[str]:
+    """``src``, or a copy of it in a temporary file when it cannot seek."""
     try:
-        for k in range(job["rows_staged"], len(order), IMPORT_CHUNK):
-            chunk = order[k:k + IMPORT_CHUNK]
-            recs = _convert_chunk(chunk)
-            with store.transaction(conn):
-                store.stage_import_rows(conn, job["id"], k, [(depth[r["uuid"]], rec)
-                                                             for r, rec in zip(chunk, recs)])
+        if src.seekable():
+            return src
+    except (AttributeError, ValueError):
+        pass
+    import shutil
+    import tempfile
+    copy = tempfile.TemporaryFile("w+", encoding="utf-8", newline="")
+    shutil.copyfileobj(src, copy)
+    copy.seek(0)
+    return copy
+
+
+def _file_digest(src: IO[str]) -> str:
+    import hashlib
+    h = hashlib.sha256()
+    start = src.tell()
+    while piece := src.read(1 << 20):
+        h.update(piece.encode("utf-8", "surrogatepass"))
+    src.seek(start)
+    return h.hexdigest()
+
+
+def _blocks(rows, size: int):
+    block = []
+    for r in rows:
+        block.append(r)
+        if len(block) == size:
+            yield block
+            block = []
+    if block:
+        yield block
+
+
+def _merge(conn, rows, digest: str) -> dict:
+    """Read, check and stage ``rows``, then land them (see :func:`import_csv`)."""
+    plan = Plan(conn)
+    with store.transaction(conn):
+        job = store.import_job(conn, digest)
+    try:
+        late = _stage_all(conn, job, plan, rows)
+        depth = plan.finish()
+        if late is not None:        # a conversion refusal comes after the file's own
+            raise late
         with store.transaction(conn):
             clash = store.import_clashes(conn, job["id"])
             if clash is None:
+                store.set_import_depths(conn, job["id"], [(depth[e.uuid], seq) for seq, e
+                                                          in enumerate(plan.fresh)
+                                                          if depth[e.uuid]])
                 try:
                     added = store.finish_import_job(conn, job["id"])
                 except store.StoreError as e:
                     raise ImportError_(f"{e.message} Nothing was imported.", e.field) from None
-                voids = _merge_acks_and_voids(conn, order + known)
-    except InputError:
+                voids = _merge_acks_and_voids(conn, plan.marks)
+    except InputError as e:
         # a refused file leaves nothing staged (a kill leaves its chunks to resume)
         with store.transaction(conn):
             store.drop_import_job(conn, job["id"])
+        if isinstance(e, ImportError_) and "Nothing was imported" not in e.message:
+            raise ImportError_(e.message + " Nothing was imported.", e.field) from None
         raise
     if clash is not None:
         with store.transaction(conn):
             store.drop_import_job(conn, job["id"])
         raise ImportError_(f"The log changed while the file was imported ({clash}); "
                            "nothing was imported. Run the import again.", "file")
-    return {"added": added, "skipped": skipped, "voided": voids}
+    return {"added": added, "skipped": plan.rows - len(plan.fresh), "voided": voids}
 
 
-def _depths(order: list[dict]) -> dict[str, int]:
-    """How many rows of this file each new row sits above in its chain of
-    corrections (0: it corrects nothing in the file); ``order`` lists every
-    reading before its correction."""
-    depth: dict[str, int] = {}
-    for r in order:
-        t = r["supersedes_uuid"]
-        depth[r["uuid"]] = depth[t] + 1 if t in depth else 0
-    return depth
+def _stage_all(conn, job: dict, plan: Plan, rows) -> ImportError_ | None:
+    """Index every row and stage the new ones past what the job staged
+    already, a chunk per short transaction. Once the file shows a refusal
+    nothing more is converted; a conversion refusal is returned, to be raised
+    after the checks of the whole file."""
+    done, seq, pending, late = job["rows_staged"], 0, [], None
+    for block in _blocks(rows, IMPORT_CHUNK):
+        for r in plan.add_block(block):     # seq: rows new to the log so far
+            seq += 1
+            if seq > done and late is None and plan.error is None:
+                pending.append(r)
+            if len(pending) == IMPORT_CHUNK:
+                late = _stage(conn, job["id"], seq - len(pending), pending)
+                pending = []
+    if pending and late is None and plan.error is None:
+        late = _stage(conn, job["id"], seq - len(pending), pending)
+    return late
 
 
-def _import_job(conn, order: list[dict]) -> dict:
-    """The staging job of these new rows: one left by a killed run of the same
-    rows (to carry on), else a new one."""
-    import hashlib
-    h = hashlib.sha256()
-    for r in order:
-        h.update("\x1f".join(str(r.get(c, "")) for c in COLUMNS).encode("utf-8", "replace"))
-        h.update(b"\x1e")
-    with store.transaction(conn):
-        return store.import_job(conn, h.hexdigest(), len(order))
+def _stage(conn, job_id: int, first_seq: int, chunk: list[dict]) -> ImportError_ | None:
+    try:
+        recs = _convert_chunk(chunk)
+    except ImportError_ as e:
+        return e
+    with store.staging_transaction(conn):
+        store.stage_import_rows(conn, job_id, first_seq, [(0, rec) for rec in recs])
+    return None
 
 
 def _convert_chunk(chunk: list[dict]) -> list[dict]:
@@ -117,7 +182,7 @@ def _convert_chunk(chunk: list[dict]) -> list[dict]:
     for r, payload, result in zip(chunk, payloads, results):
         result["imported"] = True
         try:
-            rec = build_record(payload, result=result)
+            rec = build_record(payload, result=result, fields_checked=True)
         except (InputError, store.StoreError) as e:
             raise ImportError_(f"line {r['_line']}: {e.message} Nothing was "
                                "imported.", getattr(e, "field", None)) from None
@@ -131,9 +196,9 @@ def _convert_chunk(chunk: list[dict]) -> list[dict]:
     return recs
 
 
-def _merge_acks_and_voids(conn, rows: list[dict]) -> int:
-    """Acknowledgements and voids the file carries that the log lacks."""
-    wanted = [r for r in rows if r["flag_acks"] or r["status"] == "void"]
+def _merge_acks_and_voids(conn, wanted: list[dict]) -> int:
+    """Acknowledgements and voids the file carries that the log lacks
+    (``wanted``: the file's rows with either, :attr:`Plan.marks`)."""
     brief = store.readings_brief(conn, [r["uuid"] for r in wanted])
     acks = store.acks_for_readings(conn, [brief[r["uuid"]]["id"] for r in wanted])
     voids = 0
@@ -150,13 +215,3 @@ def _merge_acks_and_voids(conn, rows: list[dict]) -> int:
                               r["voided_at"] or None)
             voids += 1
     return voids
-
-
-def import_csv(conn, src: IO[str]) -> dict:
-    try:
-        rows = read_export(src)
-    except ImportError_ as e:
-        if "Nothing was imported" in e.message:
-            raise
-        raise ImportError_(e.message + " Nothing was imported.", e.field) from None
-    return import_rows(conn, rows)

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import csv
 import re
+from itertools import islice
 from typing import IO, Iterator
 
 from ..science import InputError
@@ -87,41 +88,102 @@ def _check_text_cells(r: dict, line: int) -> None:
 #: A line of the file as csv.reader reads it from a file opened with
 #: newline="": ended by CRLF, LF or CR (CSV cells may hold other line breaks).
 _LINE_RE = re.compile(r"[^\r\n]*(?:\r\n|\r|\n)|[^\r\n]+$")
+#: Characters read from the file at a time.
+_READ_BLOCK = 1 << 20
+#: Rows handed to the spreadsheet repair (roundtrip.restore) at a time.
+_ROW_BLOCK = 2000
 
 
-def _lines(text: str, start: int) -> Iterator[str]:
-    """The lines of ``text`` from ``start`` on, without copying the text."""
-    return (m.group() for m in _LINE_RE.finditer(text, start))
+def _lines(src: IO[str]) -> Iterator[str]:
+    """The lines of ``src``, a block of text at a time: a line is handed on
+    once its end is read (a CR at the end of a block may be the first half of
+    a CRLF, so it waits for the next block)."""
+    tail, first = "", True
+    while True:
+        piece = src.read(_READ_BLOCK)
+        text = tail + piece
+        if first and piece:
+            text, first = text[1:] if text.startswith(BOM) else text, False
+        if not piece:
+            yield from (m.group() for m in _LINE_RE.finditer(text))
+            return
+        cut = text.rfind("\n") + 1 or text.rfind("\r", 0, len(text) - 1) + 1
+        tail = text[cut:]
+        yield from (m.group() for m in _LINE_RE.finditer(text, 0, cut))
 
 
 def read_export(src: IO[str]) -> list[dict]:
-    """Parse and check a whole export file; raise ImportError_ on the first bad line.
-    Every cell gets the API's validation (the reading's own fields are checked
-    again when it is built); the links between rows are checked later, once
-    every row is read, by :func:`import_rows`. The text is read once and its
-    lines are walked in place; each row's cells are dropped once checked."""
-    text = src.read()
-    reader = csv.reader(_lines(text, 1 if text.startswith(BOM) else 0))
+    """Every row of an export file, checked (:func:`iter_export`)."""
+    return list(iter_export(src))
+
+
+def iter_export(src: IO[str]) -> Iterator[dict]:
+    """Parse and check an export file, yielding its rows in order; raise
+    ImportError_ for a bad file. Every cell gets the API's validation (the
+    reading's own fields are checked again when it is converted); the links
+    between rows are checked by the import (csvio.plan). The file is read a
+    block at a time and only a block of rows is held.
+
+    The messages are those of a whole-file check: a file a spreadsheet
+    changed beyond repair is refused naming every such column (after the last
+    row), else one with columns missing, else the first bad line; no row is
+    yielded after one of these is found, and the refusal comes at the end."""
+    reader = csv.reader(_lines(src))
     try:
         header = next(reader)
     except StopIteration:
         raise ImportError_("The file is empty; choose a fieldapp log export.", "file") from None
     except csv.Error as e:
         raise ImportError_(f"This is not a CSV file ({e}).", "file") from None
-    header, body = _after_spreadsheet(header, reader)
-    del text
-    missing = [c for c in COLUMNS if c not in header and c not in OPTIONAL_COLUMNS]
+    from .. import roundtrip
+    clean = roundtrip.restore(header, [], NUMERIC)[0]
+    missing = [c for c in COLUMNS if c not in clean and c not in OPTIONAL_COLUMNS]
+    idx = [(c, clean.index(c), c in NUMERIC) for c in COLUMNS if c in clean]
+    problems: dict = {}
+    bad = None
+    line = 2
+    while True:
+        block = _row_block(reader)
+        if not block:
+            break
+        try:
+            roundtrip.restore(header, block, NUMERIC, first_line=line)
+        except roundtrip.Untrusted as e:
+            for col, where in e.problems.items():
+                problems.setdefault(col, where)
+        for k, cells in enumerate(block):
+            if problems or bad or missing:
+                break
+            if cells and cells != [""]:
+                try:
+                    row = _row(cells, idx, len(clean), line + k)
+                except ImportError_ as e:
+                    bad = e
+                    break
+                yield row
+        line += len(block)
+    if problems:
+        e = roundtrip.Untrusted(problems)
+        raise ImportError_(f"{e} Nothing was imported.", e.columns[0])
     if missing:
         raise ImportError_("This is not a fieldapp log export: missing columns "
                            + ", ".join(missing[:6]) + (" …" if len(missing) > 6 else "")
                            + ". Nothing was imported.", "file")
-    idx = [(c, header.index(c), c in NUMERIC) for c in COLUMNS if c in header]
-    rows = []
-    for k, cells in enumerate(body):
-        body[k] = None                  # the cells go as their row is made
-        if cells and cells != [""]:
-            rows.append(_row(cells, idx, len(header), k + 2))
-    return rows
+    if bad:
+        raise bad
+
+
+def _row_block(reader) -> list[list[str]]:
+    try:
+        return list(islice(reader, _ROW_BLOCK))
+    except csv.Error as e:
+        raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
+                           "file") from None
+
+
+#: A number cell as the export writes it: read by float() alike (no comma, no
+#: exponent, no spaces, ASCII digits).
+_PLAIN_NUMBER_RE = re.compile(r"-?(?:0|[1-9][0-9]*)(?:\.[0-9]+)?")
 
 
 def _row(cells: list[str], idx, width: int, line: int) -> dict:
@@ -130,8 +192,17 @@ def _row(cells: list[str], idx, width: int, line: int) -> dict:
         raise ImportError_(f"line {line}: {len(cells)} cells, the header has "
                            f"{width}. Nothing was imported.", "file")
     r = dict.fromkeys(OPTIONAL_COLUMNS, "")     # a column an older export lacks
-    r.update({c: _num(cells[i], line, c) if numeric else unneutralize(cells[i])
-              for c, i, numeric in idx})
+    plain = _PLAIN_NUMBER_RE.fullmatch
+    for c, i, numeric in idx:
+        cell = cells[i]
+        if not numeric:
+            r[c] = unneutralize(cell) if cell[:1] == "'" else cell
+        elif cell == "":
+            r[c] = None
+        elif len(cell) <= 40 and plain(cell):
+            r[c] = float(cell)
+        else:
+            r[c] = _num(cell, line, c)
     if r["value"] is None or not r["unit"] or not r["uuid"] or not r["site"]:
         raise ImportError_(f"line {line}: site, value, unit and uuid are required.", "file")
     if r["compensated"] not in ("yes", "no"):
@@ -143,20 +214,3 @@ def _row(cells: list[str], idx, width: int, line: int) -> dict:
     _check_text_cells(r, line)
     r["_line"] = line
     return r
-
-
-def _after_spreadsheet(header: list[str], reader) -> tuple[list[str], list[list[str]]]:
-    """The header and rows with what a spreadsheet did on open and save undone
-    (:func:`fieldapp.roundtrip.restore`), or refused naming the columns that
-    can no longer be trusted."""
-    from .. import roundtrip
-    try:
-        body = list(reader)
-    except csv.Error as e:
-        raise ImportError_(f"The file is not valid CSV ({e}). Nothing was imported.",
-                           "file") from None
-    try:
-        header, body = roundtrip.restore(header, body, NUMERIC)
-    except roundtrip.Untrusted as e:
-        raise ImportError_(f"{e} Nothing was imported.", e.columns[0]) from None
-    return header, body

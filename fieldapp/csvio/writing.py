@@ -9,7 +9,7 @@ from typing import IO, Iterator
 
 from .. import store
 from .cells import (ReadableCells, _acks_cell, _version_cell, _yes_no, neutralize,
-                    plain_number)
+                    neutralize_all, plain_number, plain_numbers)
 from .columns import BOM, COLUMNS, EXPORT_COLUMNS, NUMERIC
 
 
@@ -29,7 +29,8 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 500,
     except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
         acked = set()
     columns = _Columns(conn, acked)
-    rows = store.iter_readings_keyset(conn, site_id=site_id, report=report)
+    rows = store.iter_readings_keyset(conn, site_id=site_id, report=report, batch=2000,
+                                      select=store.export_select(store.dialect(conn)))
     while True:
         piece = list(islice(rows, rows_per_piece))
         if not piece:
@@ -45,21 +46,25 @@ class _Memo:
     ``limit`` values (a column of unique texts keeps memory flat); a column
     whose values are mostly new (uuids, times) is just mapped."""
 
-    def __init__(self, f, limit: int = 4096, text_only: bool = False):
+    def __init__(self, f, limit: int = 4096, text_only: bool = False, bulk=None):
         self.f, self.limit, self.text_only = f, limit, text_only
+        self.bulk = bulk or (lambda col: list(map(f, col)))     # f of a whole column
         self.seen: dict = {}
         self.direct = False
 
     def __call__(self, col) -> list:
         if self.direct:
-            return list(map(self.f, col))
+            return self.bulk(col)
         seen = self.seen
+        out = list(map(seen.get, col))
+        if None not in out:             # every value met before (f never gives None)
+            return out
         new = set(col).difference(seen)
         if len(new) * 2 > len(col) > 100:
             self.direct, self.seen = True, {}
-            return list(map(self.f, col))
+            return self.bulk(col)
         if self.text_only and any(v is not None and type(v) is not str for v in new):
-            return list(map(self.f, col))   # 1 and 1.0 would share a key
+            return self.bulk(col)           # 1 and 1.0 would share a key
         if len(seen) + len(new) > self.limit:
             seen.clear()
             new = set(col)
@@ -70,19 +75,19 @@ class _Memo:
 
 class _Columns:
     """The export's columns, in :data:`EXPORT_COLUMNS` order, for a piece of
-    stored rows (sqlite3.Row, the columns of store's reading query)."""
+    stored rows (sqlite3.Row, the columns of ``store.export_select``)."""
 
     def __init__(self, conn, acked: set):
         self.conn, self.acked = conn, acked
         self.readable = ReadableCells()
-        self.cells = {c: _Memo(plain_number) if c in NUMERIC else
+        self.cells = {c: _Memo(plain_number, bulk=plain_numbers) if c in NUMERIC else
                       _Memo(_yes_no) if c == "compensated" else
                       _Memo(_version_cell, text_only=True) if c == "app_version" else
-                      _Memo(neutralize, text_only=True)
+                      _Memo(neutralize, text_only=True, bulk=neutralize_all)
                       for c in COLUMNS if c != "flag_acks"}     # built from its own rows
         r = self.readable
         self.ratio = _Memo(r.ratio)
-        self.local = r.local_text                   # a time is seldom repeated
+        self.local = r.local_texts                  # a time is seldom repeated
         self.labels = {k: _Memo(lambda v, k=k: neutralize(r.label(k, v)))
                        for k in ("flags", "method_label", "route_label", "sample_label")}
         self.pos = None
@@ -91,24 +96,17 @@ class _Columns:
         return [neutralize(_acks_cell(_acks_or_none(self.conn, rid))) if rid in self.acked
                 else "" for rid in ids]
 
-    def _salt_types(self, piece, values) -> list[str]:
-        """The water type; a reading stored before schema 016 keeps it in its
-        result JSON (``store.stored_salt_type``)."""
-        return [neutralize(v) if v else neutralize(store.stored_salt_type(row) or "")
-                for v, row in zip(values, piece)]
-
     def __call__(self, piece) -> list[list]:
         if self.pos is None:
             self.pos = {k: i for i, k in enumerate(piece[0].keys())}
         by_pos = list(zip(*piece))
         col = {k: by_pos[i] for k, i in self.pos.items()}
-        out = [self._acks(col["id"]) if c == "flag_acks" else
-               self._salt_types(piece, col[c]) if c == "salt_type" else self.cells[c](col[c])
-               for c in COLUMNS]
+        out = [self._acks(col["id"]) if c == "flag_acks" else self.cells[c](col[c])
+               for c in COLUMNS]          # salt_type: worked out by store.export_select
         ratios = self.ratio(col["ratio"])
         out.append([plain_number(n) for n, _ in ratios])
         out.append([text for _, text in ratios])
-        out.append(list(map(self.local, col["taken_at"])))
+        out.append(self.local(col["taken_at"]))
         out.append(self.labels["flags"](col["flags"]))
         out.append(self.labels["method_label"](col["ece_method"]))
         out.append(self.labels["route_label"](col["psi_s_method"]))

@@ -23,7 +23,7 @@ from .sites import (SITE_EDITABLE, SITE_SETTINGS, change_site_settings, clean_si
                     ensure_site, get_site, list_sites, open_flag_counts,
                     site_by_former_name, site_history, update_site)  # noqa: F401
 from .readings import (HISTORY_WINDOW, ack_flag, acked_reading_ids, acks_for_readings,
-                       existing_uuids, get_reading, history_values, insert_ack,
+                       existing_uuids, export_select, get_reading, history_values, insert_ack,
                        insert_reading, insert_readings_bulk, insert_void, iter_readings,
                        list_readings, reading_dict, readings_brief, replicate_values,
                        stored_salt_type, void_reading, _READING_SELECT)  # noqa: F401
@@ -44,7 +44,8 @@ from .rescue import (SQLITE_HEADER, connect_readonly, inspect_log, integrity_pro
 from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cursor,
                      iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
 from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
-                      stage_import_rows)  # noqa: F401
+                      set_import_depths, stage_import_rows,
+                      staging_transaction)  # noqa: F401
 from .sync import (clean_person, follow_site, get_setting, list_follows, log_uuid,
                    note_reading_origin, set_setting, unfollow_site)  # noqa: F401
 from .sync_devices import (count_office_devices_of_code, insert_office_device,

@@ -11,17 +11,19 @@ from .sites import list_sites
 
 
 def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
-                         skip_damaged: bool = True, report: dict | None = None
-                         ) -> Iterator[sqlite3.Row]:
+                         skip_damaged: bool = True, report: dict | None = None,
+                         select: str = _READING_SELECT) -> Iterator[sqlite3.Row]:
     """Every reading version in id order, fetched in keyset batches (``id > last``),
     each batch its own short read: a long export never holds one read open.
 
     With ``skip_damaged`` a batch that SQLite cannot read (a damaged page) is
     stepped over one id at a time, so an export of a damaged log rescues every
-    row that can still be read; ``report["skipped"]`` counts the ids passed over."""
+    row that can still be read; ``report["skipped"]`` counts the ids passed over.
+    ``select``: the reading query, or a narrower one of the same joins
+    (``export_select``)."""
     where = " AND r.site_id = ?" if site_id is not None else ""
-    sql = _READING_SELECT + " WHERE r.id > ?" + where + " ORDER BY r.id LIMIT ?"
-    one = _READING_SELECT + " WHERE r.id = ?" + where
+    sql = select + " WHERE r.id > ?" + where + " ORDER BY r.id LIMIT ?"
+    one = select + " WHERE r.id = ?" + where
     last, skipped, top = 0, 0, None
     while True:
         args = [last] + ([site_id] if site_id is not None else []) + [batch]

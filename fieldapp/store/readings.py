@@ -34,6 +34,28 @@ _READING_SELECT = """
     LEFT JOIN voids vo ON vo.reading_id = r.id"""
 
 
+#: The columns of :data:`_READING_SELECT` a CSV export writes, nothing else
+#: (no result JSON crosses into Python): the reading's own columns, the joins'
+#: and the water type by :func:`stored_salt_type`'s rule, worked out in SQL.
+_EXPORT_OWN = ("id", "uuid", "sample", "depth_cm", "value", "unit", "temp_c", "compensated",
+               "ratio", "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa",
+               "meter", "replicate_group", "note", "taken_at", "recorded_at", "ec25_dS_m",
+               "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method", "flags", "app_version")
+
+
+def export_select(dialect: str = "sqlite") -> str:
+    """:data:`_READING_SELECT` narrowed to what the CSV export writes; its
+    ``salt_type`` is never NULL ('' for mixed salts or not said)."""
+    find = "strpos(r.result_json, %s) > 0" if dialect == "postgresql" else \
+        "r.result_json GLOB '*' || %s || '*'"     # GLOB: exact case, quicker than instr
+    salt = (f"CASE WHEN r.salt_type <> '' THEN r.salt_type WHEN "
+            f"{find % repr(_SEA_SALT_IN_JSON)} THEN 'sea_salt' ELSE '' END AS salt_type")
+    own = ", ".join("r." + c for c in _EXPORT_OWN)
+    return _READING_SELECT.replace(
+        "SELECT r.*, s.name AS site, st.status, st.void_reason, st.corrected_by_uuid,",
+        f"SELECT {own}, {salt}, s.name AS site, st.status, st.void_reason,", 1)
+
+
 def existing_uuids(conn, uuids) -> set[str]:
     """Which of these reading uuids are in the log already."""
     uuids = list(uuids)

@@ -154,7 +154,7 @@ def job_import_bare(db, target):
             f"SELECT {', '.join(cols)} FROM readings ORDER BY id")]
         with store.transaction(dst):
             _copy_sites_and_visits(src, dst)
-        sql = store.readings_insert_sql(cols)
+        sql = store.readings_insert_sql(cols, dialect=store.dialect(dst))
         t0 = time.perf_counter()
         dst.execute("BEGIN IMMEDIATE")
         dst.executemany(sql, rows)
