@@ -16,6 +16,7 @@ quoting csv.writer uses.
 from __future__ import annotations
 
 import csv
+import gc
 import json
 import math
 import re
@@ -335,6 +336,16 @@ def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
     object per line (numbers unrounded, flags as a list of codes). Returns the
     number of rows. Raises RowError naming the line of the first row that
     cannot be a reading."""
+    paused = gc.isenabled()
+    gc.disable()        # nothing here makes cycles; a million rows' lists made the
+    try:                # collector walk every live chunk again and again
+        return _convert(src, dst, chunk_rows, fmt)
+    finally:
+        if paused:
+            gc.enable()
+
+
+def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
     reader = csv.reader(src)
     header = next(reader, None)
     if not header or "value" not in header or "unit" not in header:
