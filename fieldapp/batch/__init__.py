@@ -1,0 +1,107 @@
+"""Convert a CSV file of readings in chunks: the engine behind `convert-csv`.
+
+Rows are read in chunks, each chunk is converted by the same vectorized core
+as a single reading (science.convert.convert_batch); cells are read by
+fieldapp.forms, and written out before the next chunk is read, so memory
+stays flat however long the file is.
+
+The work is done a column at a time, not a cell at a time: the cells are
+read into a Batch by :mod:`.cells`, the output lines made by :mod:`.lines`.
+"""
+from __future__ import annotations
+
+import csv
+import gc
+from itertools import islice
+from typing import Iterable, Iterator, TextIO
+
+from ..science import InputError, convert
+from .cells import RowError, columns_to_batch
+from .lines import _write_csv, _write_json, format_number
+
+__all__ = ["INPUT_COLUMNS", "OUTPUT_COLUMNS", "CHUNK_ROWS", "RowError", "columns_to_batch",
+           "convert_csv", "format_number"]
+
+#: Input columns convert-csv understands; only value and unit are required.
+INPUT_COLUMNS = ("value", "unit", "sample", "ratio", "temp_c", "compensated", "sp",
+                 "texture", "tds_factor", "theta_g_pct", "matric_MPa", "ece_method", "crop",
+                 "salt_type")
+
+#: Output columns, in order, appended after the input columns.
+OUTPUT_COLUMNS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
+                  "psi_s_handbook60_MPa", "psi_s_rule_004_MPa", "psi_s_nacl_pitzer_MPa",
+                  "psi_s_seawater_pss78_MPa",
+                  "tds_mg_L", "relative_yield_pct", "leaching_requirement", "flags")
+
+CHUNK_ROWS = 50_000
+
+
+def chunks(reader: Iterable, size: int = CHUNK_ROWS) -> Iterator[list]:
+    it = iter(reader)
+    while True:
+        buf = list(islice(it, size))
+        if not buf:
+            return
+        yield buf
+
+
+def _even(chunk: list, width: int) -> list:
+    """The rows as lists of exactly ``width`` cells, blank lines skipped (as
+    csv.DictReader reads them: a short row's missing cells are None, a long
+    row's extra cells are dropped)."""
+    if set(map(len, chunk)) == {width}:
+        return chunk
+    return [r if len(r) == width else (r + [None] * (width - len(r)))[:width]
+            for r in chunk if r]
+
+
+def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
+                fmt: str = "csv") -> int:
+    """Read readings from ``src`` (CSV with a header), write them with the
+    computed columns to ``dst``: as CSV, or with ``fmt="json"`` as one JSON
+    object per line (numbers unrounded, flags as a list of codes). Returns the
+    number of rows. Raises RowError naming the line of the first row that
+    cannot be a reading."""
+    paused = gc.isenabled()
+    gc.disable()        # nothing here makes cycles; a million rows' lists made the
+    try:                # collector walk every live chunk again and again
+        return _convert(src, dst, chunk_rows, fmt)
+    finally:
+        if paused:
+            gc.enable()
+
+
+def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
+    reader = csv.reader(src)
+    header = next(reader, None)
+    if not header or "value" not in header or "unit" not in header:
+        raise RowError("the file needs a header row with at least the columns value and unit "
+                       f"(known columns: {', '.join(INPUT_COLUMNS)}).", "file")
+    in_cols = list(header)
+    pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
+    out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
+    writer = csv.writer(dst, lineterminator="\r\n")
+    if fmt != "json":
+        writer.writerow(in_cols + out_cols)
+    line = 2
+    total = 0
+    for chunk in chunks(reader, chunk_rows):
+        chunk = _even(chunk, len(in_cols))
+        if not chunk:
+            continue
+        by_pos = list(zip(*chunk))
+        columns = {c: by_pos[i] for c, i in pos.items()}
+        try:
+            out = convert.convert_batch(columns_to_batch(columns, len(chunk), line))
+        except RowError:
+            raise
+        except InputError as e:
+            raise RowError(f"lines {line}-{line + len(chunk) - 1}: {e.message}", e.field) from None
+        if fmt == "json":
+            _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
+        else:
+            _write_csv(dst, in_cols, columns, out, out_cols)
+        line += len(chunk)
+        total += len(chunk)
+    return total
+
