@@ -13,11 +13,13 @@ from __future__ import annotations
 import csv
 import gc
 from itertools import islice
+from operator import itemgetter
 from typing import Iterable, Iterator, TextIO
 
 from ..science import InputError, convert
 from .cells import RowError, columns_to_batch
-from .lines import _write_csv, _write_json, format_number
+from . import lines
+from .lines import _write_json, format_number
 
 __all__ = ["INPUT_COLUMNS", "OUTPUT_COLUMNS", "CHUNK_ROWS", "RowError", "columns_to_batch",
            "convert_csv", "format_number"]
@@ -80,28 +82,70 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
     in_cols = list(header)
     pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
     out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
-    writer = csv.writer(dst, lineterminator="\r\n")
     if fmt != "json":
-        writer.writerow(in_cols + out_cols)
+        csv.writer(dst, lineterminator="\r\n").writerow(in_cols + out_cols)
     line = 2
     total = 0
     for chunk in chunks(reader, chunk_rows):
         chunk = _even(chunk, len(in_cols))
         if not chunk:
             continue
-        by_pos = list(zip(*chunk))
-        columns = {c: by_pos[i] for c, i in pos.items()}
-        try:
-            out = convert.convert_batch(columns_to_batch(columns, len(chunk), line))
-        except RowError:
-            raise
-        except InputError as e:
-            raise RowError(f"lines {line}-{line + len(chunk) - 1}: {e.message}", e.field) from None
         if fmt == "json":
+            columns = _columns(chunk, pos)
+            out = _converted(columns, len(chunk), line)
             _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
         else:
-            _write_csv(dst, in_cols, columns, out, out_cols)
+            dst.write(_csv_chunk(chunk, in_cols, pos, out_cols, line))
         line += len(chunk)
         total += len(chunk)
     return total
 
+
+def _columns(chunk: list, pos: dict) -> dict:
+    by_pos = list(zip(*chunk))
+    return {c: by_pos[i] for c, i in pos.items()}
+
+
+def _converted(columns: dict, n: int, line: int) -> dict:
+    """convert_batch of the chunk's columns; an error names its line (or the chunk's)."""
+    try:
+        return convert.convert_batch(columns_to_batch(columns, n, line))
+    except RowError:
+        raise
+    except InputError as e:
+        raise RowError(f"lines {line}-{line + n - 1}: {e.message}", e.field) from None
+
+
+def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
+    """The chunk's CSV lines. A file repeats readings (the same value, unit,
+    sample... on many rows); where at least half the rows repeat another, only
+    the distinct readings are converted and formatted, each row taking the
+    results of its own (every input column the conversion reads is in the
+    key, so a row's results are the ones it would get on its own). Any input
+    error sends the whole chunk the usual way, which names the first bad line."""
+    names = [c for c in INPUT_COLUMNS if c in pos]
+    found = _distinct_rows(chunk, [pos[c] for c in names])
+    if found is not None:
+        rows, codes = found
+        try:
+            out = convert.convert_batch(
+                columns_to_batch(dict(zip(names, zip(*rows))), len(rows), line))
+        except InputError:
+            pass
+        else:
+            return lines.csv_text_repeated(chunk, in_cols, pos, out, out_cols, codes)
+    columns = _columns(chunk, pos)
+    return lines.csv_text(in_cols, columns, _converted(columns, len(chunk), line), out_cols)
+
+
+def _distinct_rows(chunk: list, positions: list) -> tuple[list, list] | None:
+    """(the distinct tuples of the cells at ``positions``, in first-seen
+    order; the index of each row's tuple), or None where fewer than half
+    the rows repeat one."""
+    key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
+    keys = list(map(key, chunk))
+    rows = list(dict.fromkeys(keys))
+    if len(rows) * 2 > len(keys):
+        return None
+    index = dict(zip(rows, range(len(rows))))
+    return rows, list(map(index.__getitem__, keys))

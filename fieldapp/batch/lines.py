@@ -42,12 +42,10 @@ def _format_column(arr) -> list[str]:
     return cells
 
 
-
 def _json_column(arr) -> list:
     if arr.dtype == object or arr.dtype == bool:
         return [None if v is None else (bool(v) if arr.dtype == bool else v) for v in arr]
     return [None if not math.isfinite(v) else v for v in arr.astype(float).tolist()]
-
 
 
 def _write_json(dst, in_cols, in_columns, out, out_cols, n):
@@ -82,13 +80,46 @@ def _csv_cells(col) -> list[str]:
     return ['"' + c.replace('"', '""') + '"' if _NEEDS_QUOTES_RE.search(c) else c for c in col]
 
 
-def _write_csv(dst, in_cols, in_columns, out, out_cols):
-    """The chunk's rows as CSV lines, built a column at a time: the same text
-    csv.writer writes row by row, at a fraction of the cost per cell."""
+def _computed_cells(out: dict, out_cols) -> list[list[str]]:
+    """The computed columns as CSV cells, quoted as csv.writer would."""
     cols = {c: _format_column(out[c]) for c in out_cols if c != "flags"}
     if "flags" in out_cols:
         cols["flags"] = out["flags"].codes_column().tolist()
-    cells = [_csv_cells(in_columns[c]) for c in in_cols] + \
-        [_csv_cells(cols[c]) for c in out_cols]
-    dst.write("\r\n".join(map(",".join, zip(*cells))) + "\r\n")
+    return [_csv_cells(cols[c]) for c in out_cols]
 
+
+def csv_text(in_cols, in_columns, out, out_cols) -> str:
+    """The chunk's rows as CSV lines, built a column at a time: the same text
+    csv.writer writes row by row, at a fraction of the cost per cell."""
+    cells = [_csv_cells(in_columns[c]) for c in in_cols] + _computed_cells(out, out_cols)
+    return "\r\n".join(map(",".join, zip(*cells))) + "\r\n"
+
+
+def csv_text_repeated(chunk: list, in_cols, pos: dict, out, out_cols, codes: list) -> str:
+    """The chunk's rows as CSV lines when ``out`` holds the results of its
+    distinct readings only (``codes[i]``: the one row ``i`` repeats): the
+    computed cells of each distinct reading are joined once and appended to
+    the text of every row that repeats it."""
+    heads = _row_texts(chunk, in_cols, pos)
+    if not out_cols:
+        return "\r\n".join(heads) + "\r\n"
+    tails = ["," + t for t in map(",".join, zip(*_computed_cells(out, out_cols)))]
+    return "\r\n".join(map(str.__add__, heads, map(tails.__getitem__, codes))) + "\r\n"
+
+
+def _row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
+    """Each row's input cells as csv.writer writes them. Where no cell needs
+    quotes (no comma, quote or line break inside a cell; no short row) and
+    no column name repeats, that is the row's cells joined by commas."""
+    if len(pos) == len(in_cols):
+        try:
+            texts = list(map(",".join, chunk))
+        except TypeError:               # a short row's missing cells (None)
+            texts = None
+        if texts is not None:
+            blob = ",".join(texts)
+            if blob.count(",") == len(texts) * len(in_cols) - 1 \
+                    and not _QUOTE_OR_BREAK_RE.search(blob):
+                return texts
+    by_pos = list(zip(*chunk))      # a repeated name writes its last column's cells, as before
+    return list(map(",".join, zip(*(_csv_cells(by_pos[pos[c]]) for c in in_cols))))
