@@ -79,10 +79,12 @@ def cached_export(cache: Path, n: int) -> Path:
     return path
 
 
-def cached_convert_input(cache: Path, n: int) -> Path:
+def cached_convert_input(cache: Path, n: int, distinct: bool = False) -> Path:
     """A convert-csv input of n rows: the kinds of reading a crew takes
-    (bench._templates, invented), as a user would type them."""
-    path = cache / f"convert-{n}.csv"
+    (bench._templates, invented), as a user would type them: 160 kinds of
+    reading over and over, or with ``distinct`` every row's value a little
+    different (seven significant digits), so no two rows are the same reading."""
+    path = cache / f"convert-{n}{'-distinct' if distinct else ''}.csv"
     if path.exists():
         return path
     cols = ("sample", "value", "unit", "temp_c", "ratio", "texture", "depth_cm", "compensated")
@@ -93,6 +95,8 @@ def cached_convert_input(cache: Path, n: int) -> Path:
         w.writerow(cols)
         for i in range(n):
             t = temps[i % len(temps)]
+            if distinct:
+                t = {**t, "value": f"{float(t['value']) * (1 + i * 1e-7):.7g}"}
             w.writerow(["" if t.get(c) is None else
                         ("yes" if t.get(c) else "no") if c == "compensated" else
                         f"{t[c]:g}" if isinstance(t[c], float) else t[c] for c in cols])
