@@ -31,7 +31,7 @@ def _format_column(arr) -> list[str]:
     finite = np.isfinite(a)
     if not finite.any():
         return [""] * len(a)
-    cells = ["%.6g" % v for v in a.tolist()]
+    cells = list(map("%.6g".__mod__, a.tolist()))
     with np.errstate(invalid="ignore"):
         mag = np.abs(a)
         odd = finite & ((mag < 1e-4) | (mag >= 999_999))
