@@ -134,14 +134,17 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
             pass
         else:
             return lines.csv_text_repeated(chunk, in_cols, pos, out, out_cols, codes)
-    columns = _columns(chunk, pos)
-    return lines.csv_text(in_cols, columns, _converted(columns, len(chunk), line), out_cols)
+    out = _converted(_columns(chunk, pos), len(chunk), line)
+    return lines.csv_text(chunk, in_cols, pos, out, out_cols)
 
 
 def _distinct_rows(chunk: list, positions: list) -> tuple[list, list] | None:
     """(the distinct tuples of the cells at ``positions``, in first-seen
     order; the index of each row's tuple), or None where fewer than half
-    the rows repeat one."""
+    the rows repeat one (at once where the first column alone, the value,
+    has more distinct cells than that)."""
+    if len(set(map(itemgetter(positions[0]), chunk))) * 2 > len(chunk):
+        return None
     key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
     keys = list(map(key, chunk))
     rows = list(dict.fromkeys(keys))
