@@ -109,9 +109,7 @@ def _word_column(col, parse, first_line: int, field: str) -> np.ndarray:
     bad = [e for e in memo.values() if isinstance(e, RowError)]
     if bad:
         raise min(bad, key=lambda e: e.line)
-    out = np.empty(len(col), dtype=object)
-    out[:] = list(map(memo.__getitem__, col))
-    return out
+    return np.fromiter(map(memo.__getitem__, col), dtype=object, count=len(col))
 
 
 def _strip(text) -> str:

@@ -31,12 +31,15 @@ def _format_column(arr) -> list[str]:
     finite = np.isfinite(a)
     if not finite.any():
         return [""] * len(a)
-    cells = list(map("%.6g".__mod__, a.tolist()))
+    if finite.all():
+        cells = list(map("%.6g".__mod__, a.tolist()))
+    else:                               # only the numbers formatted, the rest empty
+        out = np.full(len(a), "", dtype=object)
+        out[finite] = np.fromiter(map("%.6g".__mod__, a[finite].tolist()), dtype=object,
+                                  count=int(finite.sum()))
+        cells = out.tolist()
     with np.errstate(invalid="ignore"):
-        mag = np.abs(a)
-        odd = finite & ((mag < 1e-4) | (mag >= 999_999))
-    for i in np.flatnonzero(~finite).tolist():
-        cells[i] = ""
+        odd = finite & ((np.abs(a) < 1e-4) | (np.abs(a) >= 999_999))
     for i in np.flatnonzero(odd).tolist():
         cells[i] = format_number(a[i])
     return cells
@@ -81,11 +84,17 @@ def _csv_cells(col) -> list[str]:
 
 
 def _computed_cells(out: dict, out_cols) -> list[list[str]]:
-    """The computed columns as CSV cells, quoted as csv.writer would."""
-    cols = {c: _format_column(out[c]) for c in out_cols if c != "flags"}
-    if "flags" in out_cols:
-        cols["flags"] = out["flags"].codes_column().tolist()
-    return [_csv_cells(cols[c]) for c in out_cols]
+    """The computed columns as CSV cells, quoted as csv.writer would (a
+    number, digits with a sign and a point, never needs quotes)."""
+    cells = []
+    for c in out_cols:
+        if c == "flags":
+            cells.append(_csv_cells(out[c].codes_column().tolist()))
+        elif out[c].dtype.kind == "f":
+            cells.append(_format_column(out[c]))
+        else:
+            cells.append(_csv_cells(_format_column(out[c])))
+    return cells
 
 
 def csv_text(chunk: list, in_cols, pos: dict, out, out_cols) -> str:
