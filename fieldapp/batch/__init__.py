@@ -147,8 +147,9 @@ def _distinct_rows(chunk: list, positions: list) -> tuple[list, list] | None:
         return None
     key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
     keys = list(map(key, chunk))
-    rows = list(dict.fromkeys(keys))
-    if len(rows) * 2 > len(keys):
+    first: dict = {}                    # each key -> the row it first appears on
+    seen = list(map(first.setdefault, keys, range(len(keys))))   # one hash per row
+    if len(first) * 2 > len(keys):
         return None
-    index = dict(zip(rows, range(len(rows))))
-    return rows, list(map(index.__getitem__, keys))
+    order = dict(zip(first.values(), range(len(first))))
+    return list(first), list(map(order.__getitem__, seen))
