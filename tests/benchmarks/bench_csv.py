@@ -306,7 +306,8 @@ def bench_convert(cache, n, small_n, work: Path):
         src = cached_convert_input(cache, n, distinct)
         small_src = cached_convert_input(cache, small_n, distinct)
         ours(small_src, work / "warm.csv")
-        core, floor = _alternate(lambda: ours(src, work / "out.csv"), lambda: bare(src))
+        core, floor = _alternate(lambda: ours(src, work / "out.csv"), lambda: bare(src),
+                                 repeat=3)      # short runs: a third pair steadies the ratio
         s_core = ours(small_src, work / "small.csv")
         kind = "every row a different reading" if distinct else "160 kinds of reading repeated"
         print(f"convert-csv of {n:,} rows, {kind} ({src.stat().st_size / 1e6:.0f} MB; floor: "
