@@ -26,9 +26,10 @@ HEADER = ["site", "value", "unit", "sample", "ratio", "temp_c", "compensated", "
           "texture"]
 
 
-def _rows(n):
-    """The readings over and over; the site (not read by the conversion) differs."""
-    return [[f"{r[0]} {i % 4}"] + r[1:] for i, r in
+def _rows(n, sites=4):
+    """The readings over and over; the site (not read by the conversion)
+    takes ``sites`` spellings, so rows repeat whole or only in the reading."""
+    return [[f"{r[0]} {i % sites}"] + r[1:] for i, r in
             ((i, READINGS[(i + i // 7) % len(READINGS)]) for i in range(n))]
 
 
@@ -52,14 +53,16 @@ def _reference(rows) -> str:
     return buf.getvalue()
 
 
+@pytest.mark.parametrize("sites, distinct", [(4, len(READINGS) * 4), (1000, len(READINGS))])
 @pytest.mark.parametrize("chunk_rows", [60, 50_000])
-def test_repeated_readings_get_the_results_each_would_get_alone(chunk_rows):
-    rows = _rows(300)
+def test_repeated_readings_get_the_results_each_would_get_alone(chunk_rows, sites, distinct):
+    rows = _rows(300, sites)
     src = io.StringIO()
     csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
     src.seek(0)
-    found = batch._distinct_rows(rows, list(range(1, 9)))
-    assert found is not None and len(found[0]) == len(READINGS)   # the repeat path runs
+    texts = batch.lines.row_texts(rows, HEADER, {c: i for i, c in enumerate(HEADER)})
+    found = batch._distinct_rows(rows, texts, list(range(1, 9)))
+    assert found is not None and len(found[0]) == distinct    # the repeat path runs
     dst = io.StringIO()
     assert batch.convert_csv(src, dst, chunk_rows=chunk_rows) == 300
     assert dst.getvalue() == _reference(rows)

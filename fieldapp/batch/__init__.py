@@ -124,7 +124,8 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
     key, so a row's results are the ones it would get on its own). Any input
     error sends the whole chunk the usual way, which names the first bad line."""
     names = [c for c in INPUT_COLUMNS if c in pos]
-    found = _distinct_rows(chunk, [pos[c] for c in names])
+    heads = lines.row_texts(chunk, in_cols, pos)
+    found = _distinct_rows(chunk, heads, [pos[c] for c in names])
     if found is not None:
         rows, codes = found
         try:
@@ -133,23 +134,34 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
         except InputError:
             pass
         else:
-            return lines.csv_text_repeated(chunk, in_cols, pos, out, out_cols, codes)
-    out = _converted(_columns(chunk, pos), len(chunk), line)
-    return lines.csv_text(chunk, in_cols, pos, out, out_cols)
+            return lines.csv_text_repeated(heads, out, out_cols, codes)
+    return lines.csv_text(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
 
 
-def _distinct_rows(chunk: list, positions: list) -> tuple[list, list] | None:
-    """(the distinct tuples of the cells at ``positions``, in first-seen
-    order; the index of each row's tuple), or None where fewer than half
-    the rows repeat one (at once where the first column alone, the value,
-    has more distinct cells than that)."""
-    if len(set(map(itemgetter(positions[0]), chunk))) * 2 > len(chunk):
+def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, list] | None:
+    """(the distinct tuples of the cells at ``positions``; for each row, the
+    index of its own), or None where fewer than half the rows repeat one.
+
+    Rows whose whole text (``heads``, from :func:`lines.row_texts`) is the
+    same are found first, hashing strings the rows already have; only where
+    they differ too often (a note or an id on each row) are the cells the
+    conversion reads made into keys; neither is tried where the value column
+    alone has too many distinct cells. A text gives its cells back (quoted
+    CSV; an empty cell and a short row's missing one read alike), so rows of
+    one text are one reading."""
+    n = len(chunk)
+    if len(set(map(itemgetter(positions[0]), chunk))) * 2 > n:
         return None
     key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
-    keys = list(map(key, chunk))
-    first: dict = {}                    # each key -> the row it first appears on
-    seen = list(map(first.setdefault, keys, range(len(keys))))   # one hash per row
-    if len(first) * 2 > len(keys):
-        return None
+    first: dict = {}                    # each text (or key) -> the row it first appears on
+    seen = list(map(first.setdefault, heads, range(n)))
+    if len(first) * 2 <= n:
+        rows = [key(chunk[i]) for i in first.values()]
+    else:
+        first = {}
+        seen = list(map(first.setdefault, map(key, chunk), range(n)))
+        if len(first) * 2 > n:
+            return None
+        rows = list(first)
     order = dict(zip(first.values(), range(len(first))))
-    return list(first), list(map(order.__getitem__, seen))
+    return rows, list(map(order.__getitem__, seen))

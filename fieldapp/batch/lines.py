@@ -97,27 +97,25 @@ def _computed_cells(out: dict, out_cols) -> list[list[str]]:
     return cells
 
 
-def csv_text(chunk: list, in_cols, pos: dict, out, out_cols) -> str:
-    """The chunk's rows as CSV lines, the computed cells made a column at a
-    time: the same text csv.writer writes row by row, at a fraction of the
-    cost per cell."""
-    heads = _row_texts(chunk, in_cols, pos)
+def csv_text(heads: list, out, out_cols) -> str:
+    """The chunk's rows as CSV lines (``heads``: each row's input cells, from
+    :func:`row_texts`), the computed cells made a column at a time: the same
+    text csv.writer writes row by row, at a fraction of the cost per cell."""
     return "\r\n".join(map(",".join, zip(heads, *_computed_cells(out, out_cols)))) + "\r\n"
 
 
-def csv_text_repeated(chunk: list, in_cols, pos: dict, out, out_cols, codes: list) -> str:
+def csv_text_repeated(heads: list, out, out_cols, codes: list) -> str:
     """The chunk's rows as CSV lines when ``out`` holds the results of its
     distinct readings only (``codes[i]``: the one row ``i`` repeats): the
     computed cells of each distinct reading are joined once and appended to
     the text of every row that repeats it."""
-    heads = _row_texts(chunk, in_cols, pos)
     if not out_cols:
         return "\r\n".join(heads) + "\r\n"
     tails = ["," + t for t in map(",".join, zip(*_computed_cells(out, out_cols)))]
     return "\r\n".join(map(str.__add__, heads, map(tails.__getitem__, codes))) + "\r\n"
 
 
-def _row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
+def row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
     """Each row's input cells as csv.writer writes them. Where no cell needs
     quotes (no comma, quote or line break inside a cell; no short row) and
     no column name repeats, that is the row's cells joined by commas."""
