@@ -134,10 +134,10 @@ def _codes(col: np.ndarray) -> tuple[np.ndarray, list]:
         first = col[0]
         if bool(np.all(col == first)):   # elementwise on object arrays, None included
             return np.zeros(n, dtype=np.intp), [first]
-        mapping: dict = {}
-        codes = np.fromiter((mapping.setdefault(v, len(mapping)) for v in col),
-                            dtype=np.intp, count=n)
-        return codes, list(mapping)
+        cells = col.tolist()            # the same objects: None and NaN match as in a dict
+        values = list(dict.fromkeys(cells))             # in first-seen order
+        index = dict(zip(values, range(len(values))))
+        return np.fromiter(map(index.__getitem__, cells), dtype=np.intp, count=n), values
     col = np.asarray(col, dtype=float)
     nan = np.isnan(col)
     if nan.all():

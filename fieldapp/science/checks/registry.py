@@ -33,13 +33,16 @@ def _col(out, key, default=np.nan):
 
 
 def _per_kind(out, table):
+    """Each row's (low, high) from ``table`` by its sample kind (NaN for a
+    kind the table lacks), looked up once per distinct kind."""
+    from ..convert import _codes        # convert imports checks
     kinds = np.asarray(out["sample"], dtype=object)
-    lo = np.full(len(kinds), np.nan)
-    hi = np.full(len(kinds), np.nan)
-    for k, (a, b) in table.items():
-        m = kinds == k
-        lo[m], hi[m] = a, b
-    return lo, hi
+    if not len(kinds):
+        return np.full(0, np.nan), np.full(0, np.nan)
+    codes, values = _codes(kinds)
+    bounds = np.array([table.get(k, (np.nan, np.nan)) if isinstance(k, str) else
+                       (np.nan, np.nan) for k in values], dtype=float).reshape(-1, 2)
+    return bounds[codes, 0], bounds[codes, 1]
 
 
 def _shown(out, i, x_dS_m):

@@ -1,45 +1,28 @@
-"""Convert a CSV file of readings in chunks: the engine behind `convert-csv`.
+"""Typed cells of convert-csv's input, a column at a time, into a Batch.
 
-Rows are read in chunks, each chunk is converted by the same vectorized core
-as a single reading (science.convert.convert_batch); cells are read by
-fieldapp.forms, and written out before the next chunk is read, so memory
-stays flat however long the file is.
-
-The work is done a column at a time, not a cell at a time: a column of plain
-decimals becomes floats in one numpy call (anything else, a decimal comma
-included, goes cell by cell through :func:`fieldapp.forms.parse_number`), a
-column of words is parsed once per distinct word, and the computed columns
-are formatted per column with the one formatter's rule (:func:`fmt.number`,
-six significant digits), and the lines are joined from the columns with the
-quoting csv.writer uses.
+A column of plain decimals becomes floats in one numpy call (anything else,
+a decimal comma included, goes cell by cell through
+:func:`fieldapp.forms.parse_number`), a column of words is parsed once per
+distinct word; a bad cell raises :class:`RowError` naming its line.
 """
 from __future__ import annotations
 
-import csv
-import json
 import math
 import re
-from itertools import islice
-from typing import Iterable, Iterator, TextIO
 
 import numpy as np
 
-from . import forms
-from .fmt import number
-from .science import InputError, convert, extracts
+from .. import forms
+from ..science import InputError, convert, extracts
 
-#: Input columns convert-csv understands; only value and unit are required.
-INPUT_COLUMNS = ("value", "unit", "sample", "ratio", "temp_c", "compensated", "sp",
-                 "texture", "tds_factor", "theta_g_pct", "matric_MPa", "ece_method", "crop",
-                 "salt_type")
 
-#: Output columns, in order, appended after the input columns.
-OUTPUT_COLUMNS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
-                  "psi_s_handbook60_MPa", "psi_s_rule_004_MPa", "psi_s_nacl_pitzer_MPa",
-                  "psi_s_seawater_pss78_MPa",
-                  "tds_mg_L", "relative_yield_pct", "leaching_requirement", "flags")
+class RowError(InputError):
+    """An input error located at a line of the file."""
 
-CHUNK_ROWS = 50_000
+    def __init__(self, message: str, field: str | None = None, line: int | None = None):
+        super().__init__(message, field)
+        self.line = line
+
 
 #: A character that sends a number column cell by cell through
 #: parse_number: the cells of a column made only of the characters that
@@ -51,14 +34,6 @@ _NOT_PLAIN_RE = re.compile(r"[^0-9.+\-eE\n]")
 #: cells were read before (the first bad cell of a row is the one named).
 _NUMBER_COLUMNS = (("temp_c", "temp_c"), ("sp", "sp_pct"), ("tds_factor", "tds_factor"),
                    ("theta_g_pct", "theta_g_pct"), ("matric_MPa", "matric_MPa"))
-
-
-class RowError(InputError):
-    """An input error located at a line of the file."""
-
-    def __init__(self, message: str, field: str | None = None, line: int | None = None):
-        super().__init__(message, field)
-        self.line = line
 
 
 def _cell_number(cell: str, line: int, field: str) -> float:
@@ -134,17 +109,11 @@ def _word_column(col, parse, first_line: int, field: str) -> np.ndarray:
     bad = [e for e in memo.values() if isinstance(e, RowError)]
     if bad:
         raise min(bad, key=lambda e: e.line)
-    out = np.empty(len(col), dtype=object)
-    out[:] = list(map(memo.__getitem__, col))
-    return out
+    return np.fromiter(map(memo.__getitem__, col), dtype=object, count=len(col))
 
 
 def _strip(text) -> str:
     return (text or "").strip()
-
-
-def _or_none(parse):
-    return lambda text: parse(_strip(text)) if _strip(text) else None
 
 
 def _check_sample(kind):
@@ -206,7 +175,7 @@ def _first_bad(mask, first_line: int, message: str, field: str) -> None:
 def columns_to_batch(columns: dict, n: int, first_line: int) -> convert.Batch:
     """Columns of typed cells (lists by input column name, each of n cells)
     -> a Batch, or RowError naming the line of the first bad cell."""
-    from .science import tolerance, units
+    from ..science import tolerance, units
     empty = [None] * n
     value = _number_column(columns["value"], first_line, "value", required=True)
     nums = _row_cells(columns, n, first_line)
@@ -231,139 +200,3 @@ def columns_to_batch(columns: dict, n: int, first_line: int) -> convert.Batch:
                               matric_MPa=nums["matric_MPa"], ece_method=method, crop=crop,
                               salt_type=nums["salt_type"])
 
-
-def format_number(x) -> str:
-    """A computed cell: the one formatter, six significant digits, empty for missing."""
-    return number(x, 6, missing="")
-
-
-def _format_column(arr) -> list[str]:
-    """A computed column as CSV cells. Floats take ``%.6g`` where that is
-    already plain decimals (what :func:`format_number` writes for them); the
-    rest (missing, zero, very small or large) go through the formatter itself."""
-    if arr.dtype == object:
-        return ["" if v is None else str(v) for v in arr]
-    if arr.dtype == bool:
-        return ["yes" if v else "no" for v in arr]
-    a = np.asarray(arr, dtype=float)
-    finite = np.isfinite(a)
-    if not finite.any():
-        return [""] * len(a)
-    cells = ["%.6g" % v for v in a.tolist()]
-    with np.errstate(invalid="ignore"):
-        mag = np.abs(a)
-        odd = finite & ((mag < 1e-4) | (mag >= 999_999))
-    for i in np.flatnonzero(~finite).tolist():
-        cells[i] = ""
-    for i in np.flatnonzero(odd).tolist():
-        cells[i] = format_number(a[i])
-    return cells
-
-
-def chunks(reader: Iterable, size: int = CHUNK_ROWS) -> Iterator[list]:
-    it = iter(reader)
-    while True:
-        buf = list(islice(it, size))
-        if not buf:
-            return
-        yield buf
-
-
-def _json_column(arr) -> list:
-    if arr.dtype == object or arr.dtype == bool:
-        return [None if v is None else (bool(v) if arr.dtype == bool else v) for v in arr]
-    return [None if not math.isfinite(v) else v for v in arr.astype(float).tolist()]
-
-
-def _even(chunk: list, width: int) -> list:
-    """The rows as lists of exactly ``width`` cells, blank lines skipped (as
-    csv.DictReader reads them: a short row's missing cells are None, a long
-    row's extra cells are dropped)."""
-    if set(map(len, chunk)) == {width}:
-        return chunk
-    return [r if len(r) == width else (r + [None] * (width - len(r)))[:width]
-            for r in chunk if r]
-
-
-def _write_json(dst, in_cols, in_columns, out, out_cols, n):
-    cols = {c: _json_column(out[c]) for c in out_cols if c != "flags"}
-    if "flags" in out_cols:
-        cols["flags"] = [[f for f in codes.split(";") if f]
-                         for codes in out["flags"].codes_column().tolist()]
-    ins = [in_columns[c] for c in in_cols]
-    outs = [cols[c] for c in out_cols]
-    for i in range(n):
-        rec = dict(zip(in_cols, (col[i] for col in ins)))
-        rec.update(zip(out_cols, (col[i] for col in outs)))
-        dst.write(json.dumps(rec, ensure_ascii=False) + "\n")
-
-
-#: A cell csv.writer quotes (QUOTE_MINIMAL, excel dialect, CRLF lines):
-#: one holding a comma, a double quote or a line break.
-_NEEDS_QUOTES_RE = re.compile(r'[,"\r\n]')
-_QUOTE_OR_BREAK_RE = re.compile(r'["\r\n]')
-
-
-def _csv_cells(col) -> list[str]:
-    """A column as the text csv.writer writes for each cell (None as empty,
-    a cell with a comma, quote or line break in quotes)."""
-    try:
-        joined = ",".join(col)
-    except TypeError:
-        col = ["" if c is None else str(c) for c in col]
-        joined = ",".join(col)
-    if joined.count(",") == len(col) - 1 and not _QUOTE_OR_BREAK_RE.search(joined):
-        return col
-    return ['"' + c.replace('"', '""') + '"' if _NEEDS_QUOTES_RE.search(c) else c for c in col]
-
-
-def _write_csv(dst, in_cols, in_columns, out, out_cols):
-    """The chunk's rows as CSV lines, built a column at a time: the same text
-    csv.writer writes row by row, at a fraction of the cost per cell."""
-    cols = {c: _format_column(out[c]) for c in out_cols if c != "flags"}
-    if "flags" in out_cols:
-        cols["flags"] = out["flags"].codes_column().tolist()
-    cells = [_csv_cells(in_columns[c]) for c in in_cols] + \
-        [_csv_cells(cols[c]) for c in out_cols]
-    dst.write("\r\n".join(map(",".join, zip(*cells))) + "\r\n")
-
-
-def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
-                fmt: str = "csv") -> int:
-    """Read readings from ``src`` (CSV with a header), write them with the
-    computed columns to ``dst``: as CSV, or with ``fmt="json"`` as one JSON
-    object per line (numbers unrounded, flags as a list of codes). Returns the
-    number of rows. Raises RowError naming the line of the first row that
-    cannot be a reading."""
-    reader = csv.reader(src)
-    header = next(reader, None)
-    if not header or "value" not in header or "unit" not in header:
-        raise RowError("the file needs a header row with at least the columns value and unit "
-                       f"(known columns: {', '.join(INPUT_COLUMNS)}).", "file")
-    in_cols = list(header)
-    pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
-    out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
-    writer = csv.writer(dst, lineterminator="\r\n")
-    if fmt != "json":
-        writer.writerow(in_cols + out_cols)
-    line = 2
-    total = 0
-    for chunk in chunks(reader, chunk_rows):
-        chunk = _even(chunk, len(in_cols))
-        if not chunk:
-            continue
-        by_pos = list(zip(*chunk))
-        columns = {c: by_pos[i] for c, i in pos.items()}
-        try:
-            out = convert.convert_batch(columns_to_batch(columns, len(chunk), line))
-        except RowError:
-            raise
-        except InputError as e:
-            raise RowError(f"lines {line}-{line + len(chunk) - 1}: {e.message}", e.field) from None
-        if fmt == "json":
-            _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
-        else:
-            _write_csv(dst, in_cols, columns, out, out_cols)
-        line += len(chunk)
-        total += len(chunk)
-    return total

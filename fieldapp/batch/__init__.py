@@ -1,0 +1,167 @@
+"""Convert a CSV file of readings in chunks: the engine behind `convert-csv`.
+
+Rows are read in chunks, each chunk is converted by the same vectorized core
+as a single reading (science.convert.convert_batch); cells are read by
+fieldapp.forms, and written out before the next chunk is read, so memory
+stays flat however long the file is.
+
+The work is done a column at a time, not a cell at a time: the cells are
+read into a Batch by :mod:`.cells`, the output lines made by :mod:`.lines`.
+"""
+from __future__ import annotations
+
+import csv
+import gc
+from itertools import islice
+from operator import itemgetter
+from typing import Iterable, Iterator, TextIO
+
+from ..science import InputError, convert
+from .cells import RowError, columns_to_batch
+from . import lines
+from .lines import _write_json, format_number
+
+__all__ = ["INPUT_COLUMNS", "OUTPUT_COLUMNS", "CHUNK_ROWS", "RowError", "columns_to_batch",
+           "convert_csv", "format_number"]
+
+#: Input columns convert-csv understands; only value and unit are required.
+INPUT_COLUMNS = ("value", "unit", "sample", "ratio", "temp_c", "compensated", "sp",
+                 "texture", "tds_factor", "theta_g_pct", "matric_MPa", "ece_method", "crop",
+                 "salt_type")
+
+#: Output columns, in order, appended after the input columns.
+OUTPUT_COLUMNS = ("ec25_dS_m", "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method",
+                  "psi_s_handbook60_MPa", "psi_s_rule_004_MPa", "psi_s_nacl_pitzer_MPa",
+                  "psi_s_seawater_pss78_MPa",
+                  "tds_mg_L", "relative_yield_pct", "leaching_requirement", "flags")
+
+CHUNK_ROWS = 50_000
+
+
+def chunks(reader: Iterable, size: int = CHUNK_ROWS) -> Iterator[list]:
+    it = iter(reader)
+    while True:
+        buf = list(islice(it, size))
+        if not buf:
+            return
+        yield buf
+
+
+def _even(chunk: list, width: int) -> list:
+    """The rows as lists of exactly ``width`` cells, blank lines skipped (as
+    csv.DictReader reads them: a short row's missing cells are None, a long
+    row's extra cells are dropped)."""
+    if set(map(len, chunk)) == {width}:
+        return chunk
+    return [r if len(r) == width else (r + [None] * (width - len(r)))[:width]
+            for r in chunk if r]
+
+
+def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
+                fmt: str = "csv") -> int:
+    """Read readings from ``src`` (CSV with a header), write them with the
+    computed columns to ``dst``: as CSV, or with ``fmt="json"`` as one JSON
+    object per line (numbers unrounded, flags as a list of codes). Returns the
+    number of rows. Raises RowError naming the line of the first row that
+    cannot be a reading."""
+    paused = gc.isenabled()
+    gc.disable()        # nothing here makes cycles; a million rows' lists made the
+    try:                # collector walk every live chunk again and again
+        return _convert(src, dst, chunk_rows, fmt)
+    finally:
+        if paused:
+            gc.enable()
+
+
+def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
+    reader = csv.reader(src)
+    header = next(reader, None)
+    if not header or "value" not in header or "unit" not in header:
+        raise RowError("the file needs a header row with at least the columns value and unit "
+                       f"(known columns: {', '.join(INPUT_COLUMNS)}).", "file")
+    in_cols = list(header)
+    pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
+    out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
+    if fmt != "json":
+        csv.writer(dst, lineterminator="\r\n").writerow(in_cols + out_cols)
+    line = 2
+    total = 0
+    for chunk in chunks(reader, chunk_rows):
+        chunk = _even(chunk, len(in_cols))
+        if not chunk:
+            continue
+        if fmt == "json":
+            columns = _columns(chunk, pos)
+            out = _converted(columns, len(chunk), line)
+            _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
+        else:
+            dst.write(_csv_chunk(chunk, in_cols, pos, out_cols, line))
+        line += len(chunk)
+        total += len(chunk)
+    return total
+
+
+def _columns(chunk: list, pos: dict) -> dict:
+    by_pos = list(zip(*chunk))
+    return {c: by_pos[i] for c, i in pos.items()}
+
+
+def _converted(columns: dict, n: int, line: int) -> dict:
+    """convert_batch of the chunk's columns; an error names its line (or the chunk's)."""
+    try:
+        return convert.convert_batch(columns_to_batch(columns, n, line))
+    except RowError:
+        raise
+    except InputError as e:
+        raise RowError(f"lines {line}-{line + n - 1}: {e.message}", e.field) from None
+
+
+def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
+    """The chunk's CSV lines. A file repeats readings (the same value, unit,
+    sample... on many rows); where at least half the rows repeat another, only
+    the distinct readings are converted and formatted, each row taking the
+    results of its own (every input column the conversion reads is in the
+    key, so a row's results are the ones it would get on its own). Any input
+    error sends the whole chunk the usual way, which names the first bad line."""
+    names = [c for c in INPUT_COLUMNS if c in pos]
+    heads = lines.row_texts(chunk, in_cols, pos)
+    found = _distinct_rows(chunk, heads, [pos[c] for c in names])
+    if found is not None:
+        rows, codes = found
+        try:
+            out = convert.convert_batch(
+                columns_to_batch(dict(zip(names, zip(*rows))), len(rows), line))
+        except InputError:
+            pass
+        else:
+            return lines.csv_text_repeated(heads, out, out_cols, codes)
+    return lines.csv_text(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
+
+
+def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, list] | None:
+    """(the distinct tuples of the cells at ``positions``; for each row, the
+    index of its own), or None where fewer than half the rows repeat one.
+
+    Rows whose whole text (``heads``, from :func:`lines.row_texts`) is the
+    same are found first, hashing strings the rows already have; only where
+    they differ too often (a note or an id on each row) are the cells the
+    conversion reads made into keys; neither is tried where the value column
+    alone has too many distinct cells. A text gives its cells back (quoted
+    CSV; an empty cell and a short row's missing one read alike), so rows of
+    one text are one reading."""
+    n = len(chunk)
+    if len(set(map(itemgetter(positions[0]), chunk))) * 2 > n:
+        return None
+    key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
+    first: dict = {}                    # each text (or key) -> the row it first appears on
+    seen = list(map(first.setdefault, heads, range(n)))
+    if len(first) * 2 <= n:
+        rows = [key(chunk[i]) for i in first.values()]
+    else:
+        first = {}
+        seen = list(map(first.setdefault, map(key, chunk), range(n)))
+        if len(first) * 2 > n:
+            return None
+        rows = list(first)
+    order = dict(zip(first.values(), range(len(first))))
+    return rows, list(map(order.__getitem__, seen))
