@@ -1,4 +1,33 @@
-"""Saturated-paste ECe equivalent of a reading by the best available route."""
+"""Saturated-paste ECe equivalent of a reading by the best available route.
+
+Routing rules of :func:`estimate_ece`:
+
+* ``paste``: ECe = EC25 (method "paste"; uncertainty of the laboratory
+  method only).
+* ``extract`` (1:N by mass):
+
+  1. ``method`` names a regression -> use it; its ratio must match
+     ``ratio_n`` within 1 % (when ``ratio_n`` is omitted the regression's
+     own ratio is taken).
+  2. else ``sp_pct`` given -> ideal dilution with that SP.
+  3. else ``texture`` given -> the published texture-dependent relation:
+     1:5 Slavich and Petterson (1993) with the class-typical SP; 1:1 and
+     1:2 the Hogg and Henry (1984) line of the texture's group; other
+     ratios ideal dilution with the class SP
+     (method "sp_dilution:texture:<name>").
+  4. else the default published regression for that ratio, if any.
+  5. else :class:`InputError` (field "sp") asking for SP or texture.
+
+  ``method="sp_dilution"`` forces route 2/3 by dilution. A line used
+  below its range of use (``Regression.min_ec_dS_m``) is replaced on
+  those rows by the measured SP, else the texture's relation, else the
+  same source's line through the origin (1:1), else the line's own
+  ECe/EC ratio at the limit ("proportional_below_range:<name>"), and
+  the row's note says so. No extract's ECe is below its own EC.
+* ``water``, ``feed``, ``leachate``, ``drain``, ``sme``, ``media``: no soil
+  ECe (NaN, method None); substrates and solutions are interpreted on
+  their own scales.
+"""
 from __future__ import annotations
 
 from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
@@ -18,33 +47,7 @@ def estimate_ece(ec25_dS_m, sample: str, ratio_n=None, sp_pct=None, texture=None
                  method=None) -> EceEstimate:
     """Saturated-paste ECe equivalent of a reading, by the best available route.
 
-    Routing rules:
-
-    * ``paste``: ECe = EC25 (method "paste"; uncertainty of the laboratory
-      method only).
-    * ``extract`` (1:N by mass):
-
-      1. ``method`` names a regression -> use it; its ratio must match
-         ``ratio_n`` within 1 % (when ``ratio_n`` is omitted the regression's
-         own ratio is taken).
-      2. else ``sp_pct`` given -> ideal dilution with that SP.
-      3. else ``texture`` given -> the published texture-dependent relation:
-         1:5 Slavich and Petterson (1993) with the class-typical SP; 1:1 and
-         1:2 the Hogg and Henry (1984) line of the texture's group; other
-         ratios ideal dilution with the class SP
-         (method "sp_dilution:texture:<name>").
-      4. else the default published regression for that ratio, if any.
-      5. else :class:`InputError` (field "sp") asking for SP or texture.
-
-      ``method="sp_dilution"`` forces route 2/3 by dilution. A line used
-      below its range of use (``Regression.min_ec_dS_m``) is replaced on
-      those rows by the measured SP, else the texture's relation, else the
-      same source's line through the origin (1:1), else the line's own
-      ECe/EC ratio at the limit ("proportional_below_range:<name>"), and
-      the row's note says so. No extract's ECe is below its own EC.
-    * ``water``, ``feed``, ``leachate``, ``drain``, ``sme``, ``media``: no soil
-      ECe (NaN, method None); substrates and solutions are interpreted on
-      their own scales.
+    The routing rules are in this module's docstring.
 
     Parameters
     ----------
