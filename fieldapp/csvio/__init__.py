@@ -23,12 +23,11 @@ from .cells import (ReadableCells, _acks_cell, _parse_acks, neutralize, plain_nu
                     unneutralize)
 from .columns import BOM, COLUMNS, EXPORT_COLUMNS, NUMERIC, OPTIONAL_COLUMNS, READABLE_COLUMNS
 from .importing import IMPORT_CHUNK, import_csv, import_rows
-from .plan import plan_import
 from .reading import ImportError_, read_export
 from .writing import _acks_or_none, export, export_lines
 
 __all__ = ["BOM", "COLUMNS", "EXPORT_COLUMNS", "IMPORT_CHUNK", "NUMERIC", "OPTIONAL_COLUMNS",
            "READABLE_COLUMNS",
            "ImportError_", "ReadableCells", "export", "export_lines", "import_csv",
-           "import_rows", "neutralize", "plain_number", "plan_import", "read_export",
+           "import_rows", "neutralize", "plain_number", "read_export",
            "unneutralize"]

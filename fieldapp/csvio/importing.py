@@ -100,25 +100,37 @@ def _blocks(rows, size: int):
 
 def _merge(conn, rows, digest: str) -> dict:
     """Read, check and stage ``rows``, then land them (see :func:`import_csv`)."""
+    import sqlite3
     plan = Plan(conn)
+    try:
+        done = _merge_planned(conn, plan, rows, digest)
+    except BaseException:
+        try:
+            plan.close()
+        except sqlite3.Error:     # an aborted caller's transaction: it rolls back
+            pass
+        raise
+    plan.close()
+    return done
+
+
+def _merge_planned(conn, plan: Plan, rows, digest: str) -> dict:
     with store.transaction(conn):
         job = store.import_job(conn, digest)
     try:
         late = _stage_all(conn, job, plan, rows)
-        depth = plan.finish()
+        plan.finish()
         if late is not None:        # a conversion refusal comes after the file's own
             raise late
         with store.transaction(conn):
             clash = store.import_clashes(conn, job["id"])
             if clash is None:
-                store.set_import_depths(conn, job["id"], [(depth[e.uuid], seq) for seq, e
-                                                          in enumerate(plan.fresh)
-                                                          if depth[e.uuid]])
+                store.set_import_depths(conn, job["id"])
                 try:
                     added = store.finish_import_job(conn, job["id"])
                 except store.StoreError as e:
                     raise ImportError_(f"{e.message} Nothing was imported.", e.field) from None
-                voids = _merge_acks_and_voids(conn, plan.marks)
+                voids = _merge_acks_and_voids(conn)
     except InputError as e:
         # a refused file leaves nothing staged (a kill leaves its chunks to resume)
         with store.transaction(conn):
@@ -131,7 +143,7 @@ def _merge(conn, rows, digest: str) -> dict:
             store.drop_import_job(conn, job["id"])
         raise ImportError_(f"The log changed while the file was imported ({clash}); "
                            "nothing was imported. Run the import again.", "file")
-    return {"added": added, "skipped": plan.rows - len(plan.fresh), "voided": voids}
+    return {"added": added, "skipped": plan.rows - plan.fresh, "voided": voids}
 
 
 def _stage_all(conn, job: dict, plan: Plan, rows) -> ImportError_ | None:
@@ -196,22 +208,23 @@ def _convert_chunk(chunk: list[dict]) -> list[dict]:
     return recs
 
 
-def _merge_acks_and_voids(conn, wanted: list[dict]) -> int:
-    """Acknowledgements and voids the file carries that the log lacks
-    (``wanted``: the file's rows with either, :attr:`Plan.marks`)."""
-    brief = store.readings_brief(conn, [r["uuid"] for r in wanted])
-    acks = store.acks_for_readings(conn, [brief[r["uuid"]]["id"] for r in wanted])
+def _merge_acks_and_voids(conn) -> int:
+    """Acknowledgements and voids the file carries that the log lacks (the
+    plan's rows with either, ``store.plan_marks``, a part at a time)."""
     voids = 0
-    for r in wanted:
-        b = brief[r["uuid"]]
-        if r["flag_acks"]:
-            have = {a["code"] for a in acks[b["id"]]}
-            for code, note in _parse_acks(r["flag_acks"]):
-                if code not in have:
-                    store.insert_ack(conn, b["id"], code, note)
-                    have.add(code)
-        if r["status"] == "void" and b["status"] == "current":
-            store.insert_void(conn, b["id"], " ".join(r["void_reason"].split()),
-                              r["voided_at"] or None)
-            voids += 1
+    for wanted in store.plan_marks(conn):
+        brief = store.readings_brief(conn, [r["uuid"] for r in wanted])
+        acks = store.acks_for_readings(conn, [brief[r["uuid"]]["id"] for r in wanted])
+        for r in wanted:
+            b = brief[r["uuid"]]
+            if r["flag_acks"]:
+                have = {a["code"] for a in acks[b["id"]]}
+                for code, note in _parse_acks(r["flag_acks"]):
+                    if code not in have:
+                        store.insert_ack(conn, b["id"], code, note)
+                        have.add(code)
+            if r["status"] == "void" and b["status"] == "current":
+                store.insert_void(conn, b["id"], " ".join(r["void_reason"].split()),
+                                  r["voided_at"] or None)
+                voids += 1
     return voids

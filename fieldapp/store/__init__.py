@@ -44,6 +44,8 @@ from .rescue import (SQLITE_HEADER, connect_readonly, inspect_log, integrity_pro
 from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cursor,
                      iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
 from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
+                      plan_add, plan_depths, plan_first_bad_status, plan_first_bad_target,
+                      plan_first_self_or_twice, plan_marks, plan_reset, plan_seen,
                       set_import_depths, stage_import_rows,
                       staging_transaction)  # noqa: F401
 from .sync import (clean_person, follow_site, get_setting, list_follows, log_uuid,

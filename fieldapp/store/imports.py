@@ -53,11 +53,12 @@ def stage_import_rows(conn, job_id: int, first_seq: int, rows) -> None:
                  (first_seq + len(vals), job_id))
 
 
-def set_import_depths(conn, job_id: int, depths) -> None:
-    """``[(depth, seq), ...]``: how deep staged rows sit in their file's
-    chains of corrections, once the whole file is read (staged at 0)."""
-    conn.executemany("UPDATE import_staging SET depth = ? WHERE job_id = ? AND seq = ?",
-                     [(d, job_id, seq) for d, seq in depths])
+def set_import_depths(conn, job_id: int) -> None:
+    """How deep staged rows sit in their file's chains of corrections, from
+    the plan (:func:`plan_depths`) once the whole file is read (staged at 0)."""
+    conn.execute("UPDATE import_staging SET depth = (SELECT d.depth FROM import_plan_depths d "
+                 "WHERE d.seq = import_staging.seq) WHERE job_id = ? AND seq IN "
+                 "(SELECT seq FROM import_plan_depths)", (job_id,))
 
 
 @contextmanager
@@ -177,3 +178,171 @@ def _land(conn, job_id: int) -> int:
                          "file", 400) from None
     drop_import_job(conn, job_id)
     return added
+
+
+# ---- the plan: an entry per reading of the file, in temporary tables (the
+# connection's own, on disk past a bounded cache), so memory stays flat with
+# the file's length; csvio.plan.Plan reads and checks them.
+
+_PLAN_TABLES = (
+    "CREATE TEMP TABLE IF NOT EXISTS import_plan (uuid TEXT PRIMARY KEY, target TEXT, "
+    "site TEXT NOT NULL, site_key TEXT NOT NULL, status TEXT NOT NULL, "
+    "line BIGINT NOT NULL, same BIGINT NOT NULL, seq BIGINT)",
+    "CREATE INDEX IF NOT EXISTS import_plan_target ON import_plan (target) "
+    "WHERE target IS NOT NULL",
+    "CREATE TEMP TABLE IF NOT EXISTS import_plan_targets (uuid TEXT PRIMARY KEY, "
+    "site TEXT NOT NULL, site_key TEXT NOT NULL, status TEXT NOT NULL)",
+    "CREATE TEMP TABLE IF NOT EXISTS import_plan_marks (line BIGINT PRIMARY KEY, "
+    "uuid TEXT NOT NULL, flag_acks TEXT, status TEXT, void_reason TEXT, voided_at TEXT)",
+    "CREATE TEMP TABLE IF NOT EXISTS import_plan_depths (seq BIGINT PRIMARY KEY, "
+    "depth BIGINT NOT NULL)",
+)
+_PLAN_NAMES = ("import_plan", "import_plan_targets", "import_plan_marks",
+               "import_plan_depths")
+
+
+@contextmanager
+def _plan_writes(conn):
+    """Writes to the plan's tables, one transaction a block. They touch only
+    the connection's temporary tables: a plain BEGIN takes no lock on the
+    log (SQLite) and no write lock (PostgreSQL). Inside a caller's open
+    transaction they are part of it."""
+    if conn.in_transaction:
+        yield conn
+        return
+    conn.execute("BEGIN")
+    try:
+        yield conn
+    except BaseException:
+        if conn.in_transaction:
+            conn.execute("ROLLBACK")
+        raise
+    conn.execute("COMMIT")
+
+
+def plan_reset(conn) -> None:
+    """Empty plan tables for a new import (made at a connection's first)."""
+    with _plan_writes(conn):
+        for sql in _PLAN_TABLES:
+            conn.execute(sql)
+        if dialect(conn) == "postgresql":
+            conn.execute(f"TRUNCATE {', '.join(_PLAN_NAMES)}")
+        else:
+            for name in _PLAN_NAMES:
+                conn.execute(f"DELETE FROM {name}")
+
+
+def plan_seen(conn, uuids: list[str]) -> dict[str, tuple[int, int]]:
+    """uuid -> (same, line) of the plan's entries among ``uuids``."""
+    out: dict[str, tuple[int, int]] = {}
+    for k in range(0, len(uuids), 500):
+        part = uuids[k:k + 500]
+        for u, same, line in conn.execute(
+                f"SELECT uuid, same, line FROM import_plan WHERE uuid IN "
+                f"({','.join('?' * len(part))})", part):
+            out[u] = (same, line)
+    return out
+
+
+def plan_add(conn, entries: list[tuple], targets: list[tuple], marks: list[tuple]) -> None:
+    """Entries ``(uuid, target, site, site_key, status, line, same, seq)``
+    (seq: the staging order of a reading new to the log, else None), the
+    log's readings the file corrects ``(uuid, site, site_key, status)`` and
+    rows with acknowledgements or a void ``(line, uuid, flag_acks, status,
+    void_reason, voided_at)``."""
+    with _plan_writes(conn):
+        if entries:
+            conn.executemany("INSERT INTO import_plan (uuid, target, site, site_key, status, "
+                             "line, same, seq) VALUES (?,?,?,?,?,?,?,?)", entries)
+        if targets:
+            conn.executemany("INSERT INTO import_plan_targets (uuid, site, site_key, status) "
+                             "VALUES (?,?,?,?) ON CONFLICT (uuid) DO NOTHING", targets)
+        if marks:
+            conn.executemany("INSERT INTO import_plan_marks (line, uuid, flag_acks, status, "
+                             "void_reason, voided_at) VALUES (?,?,?,?,?,?)", marks)
+
+
+def plan_first_self_or_twice(conn):
+    """The first line (file order) that corrects itself, ``(line, uuid)``,
+    and the first that corrects a reading an earlier line corrects too,
+    ``(line, target, earlier line)``; each None if there is none."""
+    own = conn.execute("SELECT line, uuid FROM import_plan WHERE target = uuid "
+                       "ORDER BY line LIMIT 1").fetchone()
+    twice = conn.execute(
+        "SELECT p.line, p.target, (SELECT MIN(q.line) FROM import_plan q "
+        "WHERE q.target = p.target) FROM import_plan p WHERE p.target IS NOT NULL "
+        "AND EXISTS (SELECT 1 FROM import_plan q WHERE q.target = p.target "
+        "AND q.line < p.line) ORDER BY p.line LIMIT 1").fetchone()
+    return (tuple(own) if own else None), (tuple(twice) if twice else None)
+
+
+def plan_first_bad_target(conn):
+    """The first new correction (file order) whose target is on another
+    site, not current in the log or nowhere: ``(line, target, site, target's
+    line in the file or None, its site there, its site in the log, its
+    status in the log)``, or None."""
+    row = conn.execute(
+        "SELECT e.line, e.target, e.site, p.line, p.site, g.site, g.status "
+        "FROM import_plan e LEFT JOIN import_plan p ON p.uuid = e.target "
+        "LEFT JOIN import_plan_targets g ON g.uuid = e.target "
+        "WHERE e.seq IS NOT NULL AND e.target IS NOT NULL AND CASE "
+        "WHEN p.uuid IS NOT NULL THEN p.site_key <> e.site_key "
+        "WHEN g.uuid IS NOT NULL THEN g.status <> 'current' OR g.site_key <> e.site_key "
+        "ELSE TRUE END ORDER BY e.line LIMIT 1").fetchone()
+    return tuple(row) if row else None
+
+
+def plan_depths(conn) -> list[int] | None:
+    """How deep each new reading sits in its chain of new corrections
+    (kept in ``import_plan_depths`` for those below the top); every line
+    corrects at most one reading and has at most one correction by then.
+    Returns the lines of the first circle of corrections (by its first
+    line), None if there is none."""
+    with _plan_writes(conn):
+        conn.execute(
+            "WITH RECURSIVE chain (uuid, seq, depth) AS ("
+            "SELECT c.uuid, c.seq, 1 FROM import_plan p JOIN import_plan c "
+            "ON c.target = p.uuid WHERE p.seq IS NOT NULL AND c.seq IS NOT NULL "
+            "AND NOT EXISTS (SELECT 1 FROM import_plan g WHERE g.uuid = p.target "
+            "AND g.seq IS NOT NULL) "
+            "UNION ALL SELECT c.uuid, c.seq, chain.depth + 1 FROM chain JOIN import_plan c "
+            "ON c.target = chain.uuid WHERE c.seq IS NOT NULL) "
+            "INSERT INTO import_plan_depths (seq, depth) SELECT seq, depth FROM chain")
+    start = conn.execute(
+        "SELECT c.uuid FROM import_plan c JOIN import_plan p ON p.uuid = c.target "
+        "WHERE c.seq IS NOT NULL AND p.seq IS NOT NULL AND NOT EXISTS (SELECT 1 FROM "
+        "import_plan_depths d WHERE d.seq = c.seq) ORDER BY c.line LIMIT 1").fetchone()
+    if start is None:
+        return None
+    lines, u = [], start[0]          # not reached from a first reading: a circle
+    while True:
+        line, u = conn.execute("SELECT line, target FROM import_plan WHERE uuid = ?",
+                               (u,)).fetchone()
+        lines.append(line)
+        if u == start[0]:
+            return sorted(lines)
+
+
+def plan_first_bad_status(conn):
+    """The first new reading (file order) whose status says the opposite of
+    what the file shows: ``(line, status, the correcting line or None)``."""
+    row = conn.execute(
+        "SELECT e.line, e.status, k.line FROM import_plan e LEFT JOIN import_plan k "
+        "ON k.target = e.uuid WHERE e.seq IS NOT NULL AND "
+        "(e.status = 'corrected') = (k.uuid IS NULL) ORDER BY e.line LIMIT 1").fetchone()
+    return tuple(row) if row else None
+
+
+def plan_marks(conn, size: int = 2000):
+    """The plan's rows with acknowledgements or a void, in file order, a
+    list of ``size`` at a time (each read before the caller writes)."""
+    after = -1
+    while True:
+        rows = conn.execute("SELECT line, uuid, flag_acks, status, void_reason, voided_at "
+                            "FROM import_plan_marks WHERE line > ? ORDER BY line LIMIT ?",
+                            (after, size)).fetchall()
+        if not rows:
+            return
+        after = rows[-1][0]
+        yield [dict(uuid=r[1], flag_acks=r[2], status=r[3], void_reason=r[4],
+                    voided_at=r[5]) for r in rows]
