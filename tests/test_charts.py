@@ -132,6 +132,66 @@ def test_flagged_points_get_a_ring_and_others_do_not():
     assert "flag-ring" not in svg2 and "flag raised" not in svg2
 
 
+def _many(n, flagged_every=1, y=None):
+    """n points a day apart from 2026-01-01, every ``flagged_every``-th flagged."""
+    import datetime as dt
+    d0 = dt.date(2026, 1, 1)
+    return [{"t": (d0 + dt.timedelta(days=i)).isoformat() + "T09:00:00+00:00",
+             "y": y if y is not None else 1.0 + (i % 7), "key": f"k{i}",
+             "flagged": i % flagged_every == 0, "label": f"water {i}"} for i in range(n)]
+
+
+def test_flagged_points_beyond_the_labelled_keep_ring_and_mark():
+    pts = _many(60, flagged_every=2)                    # 30 flagged, 30 not
+    spec = soil_spec([{"name": "water", "points": pts}])
+    whole = charts.trend_svg(spec)
+    svg = charts.trend_svg(dict(spec, label_flagged=5, ref="t0-"))
+    root = parse(svg)
+    labelled = root.findall(".//s:path[@class='mark flagged']", NS)
+    # the latest 5 flagged keep their own mark, key and label, in time order
+    assert [m.get("data-key") for m in labelled] == ["k50", "k52", "k54", "k56", "k58"]
+    assert [m.find("s:title", NS).text for m in labelled][-1] == "water 58"
+    # the other 25: one ring and one mark each, drawn by <use> of one definition
+    more = root.find(".//s:g[@class='flagged-more']", NS)
+    assert more.get("data-n") == "25"
+    uses = more.findall("s:use", NS)
+    assert len(uses) == 25 and {u.get("href") for u in uses} == {"#t0-0"}
+    ring_and_mark = root.find(".//s:defs/s:g[@id='t0-0']", NS)
+    assert ring_and_mark.find("s:circle", NS).get("stroke-dasharray") and \
+        ring_and_mark.find("s:path", NS) is not None
+    # each drawn where its own mark would be (whole pixels; 1 decimal in the full chart)
+    full = {m.get("data-key"): m.get("d") for m in parse(whole).iterfind(".//s:path[@data-key]", NS)}
+    for u, k in zip(uses, [f"k{i}" for i in range(0, 50, 2)]):
+        x, y = (float(v) for v in full[k][1:].split("a")[0].split(","))
+        assert abs(float(u.get("x")) - (x + 4.5)) <= 0.56 and abs(float(u.get("y")) - y) <= 0.56
+    assert len(root.findall(".//s:path[@class='mark']", NS)) == 30      # unflagged: unchanged
+    assert charts.svg_marks(svg) == charts.svg_marks(whole) == 60
+    assert len(svg) < len(whole)
+    # without label_flagged (and with it at or above the count) nothing changes
+    assert charts.trend_svg(dict(spec, label_flagged=30)) == whole
+    assert "flagged-more" not in whole
+
+
+def test_flagged_points_on_one_pixel_are_drawn_once_and_counted():
+    pts = [dict(p, t="2026-01-01T09:00:00+00:00") for p in _many(12, y=5.0)]
+    pts.append({"t": "2026-06-01T09:00:00+00:00", "y": 1.0, "key": "end", "flagged": False})
+    svg = charts.trend_svg(dict(soil_spec([{"name": "water", "points": pts}]), label_flagged=2))
+    more = parse(svg).find(".//s:g[@class='flagged-more']", NS)
+    assert more.get("data-n") == "10" and len(more.findall("s:use", NS)) == 1
+    assert charts.svg_marks(svg) == 13
+
+
+def test_latest_flagged_picks_across_series_by_time():
+    a = [{"t": "2026-01-05", "y": 1, "flagged": True, "key": "a5"},
+         {"t": "2026-01-01", "y": 1, "flagged": True, "key": "a1"}]
+    b = [{"t": "2026-01-03", "y": 2, "flagged": True, "key": "b3"},
+         {"t": "2026-01-09", "y": 2, "flagged": False, "key": "b9"}]
+    got = charts.latest_flagged([{"points": a}, {"points": b}], 2)
+    assert [(i, p["key"]) for i, p in got] == [(1, "b3"), (0, "a5")]
+    assert len(charts.latest_flagged([{"points": a}, {"points": b}], None)) == 3
+    assert charts.latest_flagged([{"points": a}], 0) == []
+
+
 def test_user_text_is_escaped():
     evil = '<script>alert("x")</script> & "quotes"'
     spec = soil_spec([{"name": evil, "points": [dict(p, label=evil, key=evil)

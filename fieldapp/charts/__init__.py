@@ -21,6 +21,8 @@ package re-exports every public name, so ``from fieldapp import charts`` and
 """
 from __future__ import annotations
 
+import re
+
 from .axes import MONTHS, _day_number, nice_ticks, parse_time, time_ticks  # noqa: F401
 from .map import (  # noqa: F401
     EARTH_MEAN_RADIUS_KM, distance_matrix, format_distance, haversine_km, map_svg,
@@ -29,12 +31,16 @@ from .profile import profile_svg  # noqa: F401
 from .svg import (  # noqa: F401
     BAND_FILLS, FLAG_SWATCH, FONT, LINE_DASHES, SERIES_STYLES, esc, marker_path,
 )
-from .trend import trend_svg  # noqa: F401
+from .trend import latest_flagged, trend_svg  # noqa: F401
 
 
 def svg_marks(svg: str) -> int:
-    """How many reading marks an SVG from this package holds (for checks)."""
-    return svg.count('class="mark') if svg else 0
+    """How many reading marks an SVG from this package holds (for checks):
+    marks of their own and the flagged ones drawn without a label."""
+    if not svg:
+        return 0
+    more = sum(int(n) for n in re.findall(r'class="flagged-more" data-n="(\d+)"', svg))
+    return svg.count('class="mark') + more
 
 
 __all__ = ["trend_svg", "profile_svg", "map_svg", "haversine_km", "distance_matrix",

@@ -80,8 +80,22 @@ def _highlight(x: float, box) -> list[str]:
             f'paint-order="stroke" stroke="#fff" stroke-width="3">this visit</text>']
 
 
-def _series(series, X, Y) -> list[str]:
-    """Each series: its line in time order, then its marks."""
+def latest_flagged(series, most: int | None) -> list[tuple[int, dict]]:
+    """The flagged points that keep a mark and label of their own: the latest
+    ``most`` by time over all ``series`` (all of them when ``most`` is None), as
+    (series index, point), oldest first."""
+    pts = [(str(p["t"]), i, p) for i, s in enumerate(series) for p in s["points"]
+           if p.get("flagged") and p.get("y") is not None and math.isfinite(float(p["y"]))]
+    pts.sort(key=lambda a: a[0])
+    if most is not None:
+        pts = pts[-most:] if most > 0 else []
+    return [(i, p) for _, i, p in pts]
+
+
+def _series(series, X, Y, labelled=None, ref: str = "f") -> list[str]:
+    """Each series: its line in time order, then its marks. ``labelled``: ids
+    of the flagged points drawn with a label (None: every one); the other
+    flagged points are drawn as ring and mark alone (:func:`svg.flagged_more`)."""
     body = []
     for i, s in enumerate(series):
         sp = sorted(((_day_number(parse_time(p["t"])), float(p["y"]), p) for p in s["points"]
@@ -92,9 +106,12 @@ def _series(series, X, Y) -> list[str]:
             path = " ".join(f"{_f(X(d))},{_f(Y(v))}" for d, v, _ in sp)
             body.append(f'<polyline class="series-line" points="{path}" fill="none" '
                         f'stroke="{colour}" stroke-width="1.6" stroke-dasharray="{dash}"/>')
-        body.append(marks_group(i, [_mark(i, X(d), Y(v), p.get("key"), p.get("label") or
-                                          f'{s["name"]}: {fmt(v)}', bool(p.get("flagged")))
-                                    for d, v, p in sp]))
+        bare = [labelled is not None and bool(p.get("flagged")) and id(p) not in labelled
+                for _, _, p in sp]
+        more = [(X(d), Y(v)) for (d, v, _), b in zip(sp, bare) if b]
+        marks = [_mark(i, X(d), Y(v), p.get("key"), p.get("label") or f'{s["name"]}: {fmt(v)}',
+                       bool(p.get("flagged"))) for (d, v, p), b in zip(sp, bare) if not b]
+        body.append(marks_group(i, marks, more, f"{ref}{i}"))
     return body
 
 
@@ -112,6 +129,12 @@ def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -
     * ``lines`` (optional): ``{"y", "label", "key", "dash"}`` horizontal
       reference lines (a crop's threshold, its 90/75/50 % yield ECe, a target).
     * ``highlight`` (optional): a date drawn as a vertical line ("this visit").
+    * ``label_flagged`` (optional): how many flagged points keep a mark with
+      its ``data-key`` and label (the latest, :func:`latest_flagged`); the
+      others are drawn as ring and mark only (``g.flagged-more``), so a long
+      series of unit slips stays a small picture. Default: all of them.
+    * ``ref`` (optional): prefix of the ids of the chart's ``<defs>``, unique
+      in the page (default ``fm-`` and the spec's ``id``).
 
     Returns '' when there is no point to draw.
     """
@@ -145,7 +168,10 @@ def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -
     body.append(band_labels)
     if hl is not None:
         body += _highlight(X(hl), box)
-    body += _series(series, X, Y)
+    most = spec.get("label_flagged")
+    labelled = (None if most is None else
+                {id(p) for _, p in latest_flagged(series, most)})
+    body += _series(series, X, Y, labelled, spec.get("ref") or f'fm-{spec.get("id", "c")}-')
     body.append(f'<rect x="{_f(x0)}" y="{_f(mt)}" width="{_f(x1 - x0)}" height="{_f(plot_height)}" '
                 f'fill="none" stroke="#000" stroke-width="1"/>')
     items = _legend_items(series, any(p.get("flagged") for _, p in pts), shown, hidden,

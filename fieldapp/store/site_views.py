@@ -335,3 +335,27 @@ class SiteCache:
             self._sites.move_to_end(key)
             while len(self._sites) > self.most:
                 self._sites.popitem(last=False)
+
+
+def flagged_page(conn, cache: SiteCache, site_id: int, sample: str | None = None,
+                 date_from: str | None = None, date_to: str | None = None, limit: int = 50,
+                 after: str | None = None) -> tuple[list, str | None]:
+    """One page of the site's flagged readings (current, a warning or an
+    error: the flagged points of its charts, kept by ``cache``), newest first
+    by (taken_at, id), as ``readings_page`` gives rows, and the next cursor.
+    The site log's "Flagged readings" list: a chart that labels only its
+    latest flagged points links here for every one of them."""
+    from .paging import decode_cursor, encode_cursor
+    from .readings import get_reading
+    rows = [r for r in cache.site(conn, site_id)[1]
+            if (not sample or r["sample"] == sample)
+            and (not date_from or r["taken_at"] >= date_from)
+            and (not date_to or r["taken_at"] < date_to + "\uffff")]
+    rows.sort(key=lambda r: (r["taken_at"], r["id"]), reverse=True)
+    if after is not None:
+        key = tuple(decode_cursor(after, (str, int)))
+        rows = [r for r in rows if (r["taken_at"], r["id"]) < key]
+    page = [get_reading(conn, r["uuid"]) for r in rows[:limit]]
+    page = [r for r in page if r is not None]
+    nxt = encode_cursor(page[-1]["taken_at"], page[-1]["id"]) if len(rows) > limit and page else None
+    return page, nxt

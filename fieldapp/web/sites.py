@@ -7,6 +7,7 @@ from flask import Blueprint, abort, jsonify, render_template, request, url_for
 
 from .. import sites as sitecfg
 from .. import store
+from ..store.site_views import flagged_page
 from ..science import extracts, tolerance
 from ..results import CAUTIONS
 from .db import get_db
@@ -75,13 +76,21 @@ def site_log(site_id):
     date_from = page_date("from")
     date_to = page_date("to")
     after = request.args.get("after") or None
+    flagged = request.args.get("flagged") == "1"    # the charts' flagged points, every one
     try:
-        rows, nxt = store.readings_page(db, site_id=site_id, sample=sample, date_from=date_from,
-                                        date_to=date_to, limit=READINGS_PER_PAGE, after=after)
+        if flagged:
+            rows, nxt = flagged_page(db, site_cache(), site_id, sample=sample,
+                                     date_from=date_from, date_to=date_to,
+                                     limit=READINGS_PER_PAGE, after=after)
+        else:
+            rows, nxt = store.readings_page(db, site_id=site_id, sample=sample,
+                                            date_from=date_from, date_to=date_to,
+                                            limit=READINGS_PER_PAGE, after=after)
     except store.PageError:
         abort(404)
     readings = [store.reading_dict(r) for r in rows]
-    keep = {k: v for k, v in (("sample", sample), ("from", date_from), ("to", date_to)) if v}
+    keep = {k: v for k, v in (("sample", sample), ("from", date_from), ("to", date_to),
+                              ("flagged", "1" if flagged else None)) if v}
     acks = store.acks_for_readings(db, [r["id"] for r in readings])
     by_uuid = {r["uuid"]: r for r in readings}
     for r in readings:
@@ -98,7 +107,7 @@ def site_log(site_id):
                            saved=request.args.get("saved") == "1",
                            summary=site_view(db, site),     # summary and charts at the top
                            samples=list(extracts.SAMPLE_KINDS.values()), sample=sample,
-                           date_from=date_from or "", date_to=date_to or "",
+                           date_from=date_from or "", date_to=date_to or "", flagged=flagged,
                            older_url=nxt and url_for("sites.site_log", site_id=site_id,
                                                      after=nxt, **keep) + "#log",
                            newest_url=after and url_for("sites.site_log", site_id=site_id,

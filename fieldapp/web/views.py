@@ -47,11 +47,28 @@ def _svg(s: str) -> Markup | None:
     return Markup(s) if s else None
 
 
-def _chart_figures(specs: list[dict]) -> list[dict]:
-    return [{"id": s["id"], "title": s["title"], "svg": _svg(charts.trend_svg(s)),
-             "bands_source": s.get("bands_source"), "n_points": sum(len(x["points"])
-                                                                     for x in s["series"])}
-            for s in specs]
+#: A chart labels this many flagged points (the latest) and lists them below
+#: it; the others keep their ring and mark, and the site log's "Flagged only"
+#: list holds every one (a log full of unit slips stays a small page).
+FLAGGED_LABELS = 10
+
+
+def _chart_figures(specs: list[dict], site_id: int) -> list[dict]:
+    out = []
+    for k, s in enumerate(specs):
+        series = s["series"]
+        n_flagged = sum(1 for x in series for p in x["points"] if p.get("flagged"))
+        latest = charts.latest_flagged(series, FLAGGED_LABELS)[::-1]      # newest first
+        out.append({"id": s["id"], "title": s["title"],
+                    "svg": _svg(charts.trend_svg(dict(s, label_flagged=FLAGGED_LABELS,
+                                                          ref=f"f{k}-"))),
+                    "bands_source": s.get("bands_source"),
+                    "n_points": sum(len(x["points"]) for x in series),
+                    "n_flagged": n_flagged,
+                    "flagged_latest": [p["label"] for _, p in latest] if n_flagged > len(latest)
+                    else [],
+                    "flagged_url": url_for("sites.site_log", site_id=site_id, flagged=1) + "#log"})
+    return out
 
 
 def site_view(db, site) -> dict:
@@ -62,7 +79,7 @@ def site_view(db, site) -> dict:
     summary, specs, prof = interpretation(db, site, targets)
     return {
         "s": summary,
-        "charts": _chart_figures(specs),
+        "charts": _chart_figures(specs, site["id"]),
         "profile": prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))},
         "targets": targets,
         "measures": interpret.TARGET_MEASURES,
@@ -146,7 +163,7 @@ def report(site_id):
         # "this visit" is drawn at the time of the visit's first reading, not at its midnight
         summary, specs, prof = interpretation(db, site, targets, as_of=day, highlight=day,
                                               highlight_at=rows[0]["taken_at"] if rows else None)
-        figures = _chart_figures(specs)
+        figures = _chart_figures(specs, site_id)
         profile = prof and {"title": prof["title"], "svg": _svg(charts.profile_svg(prof))}
         checks = meter_checks(db, readings, max_age_days())
     sv = None
@@ -226,11 +243,26 @@ def summary_json(site_id):
             raise InputError("as_of must be a date like 2026-05-14.", "as_of") from None
     crop = interpret.site_crop(site)
     targets = store.list_targets(db, crop.name) if crop else []
-    out, out["charts"], out["profile"] = interpretation(db, site, targets, as_of=as_of)
+    out, specs, out["profile"] = interpretation(db, site, targets, as_of=as_of)
+    out["charts"], out["point_fields"] = compact_charts(specs), list(POINT_FIELDS)
     visits = store.visits_for_site(db, site_id)
     out["visits"] = [dict(v) for v in visits[:SUMMARY_VISITS]]   # newest first
     out["visits_total"] = len(visits)
     return jsonify(out)
+
+
+#: A chart point in the summary API: one array of these, in this order (the
+#: API says so in ``point_fields``). A point's label is not sent: the series
+#: name, the day, the value and the reading (``key``) say all it says.
+POINT_FIELDS = ("t", "y", "key", "flagged")
+
+
+def compact_charts(specs: list[dict]) -> list[dict]:
+    """The chart data of the summary API: each series' points as arrays of
+    :data:`POINT_FIELDS` (a long series of flagged points stays small)."""
+    return [dict(c, series=[dict(x, points=[[p.get(f) for f in POINT_FIELDS]
+                                            for p in x["points"]]) for x in c["series"]])
+            for c in specs]
 
 
 #: The summary API lists this many latest visits (``visits_total`` says how
