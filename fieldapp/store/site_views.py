@@ -294,39 +294,34 @@ class SiteCache:
         """``store.open_flag_counts`` of these sites, from counts of the whole
         log kept like the day totals (readings saved since are counted alone;
         a void, correction or acknowledgement counts afresh)."""
-        state = log_flag_state(conn)
-        with self._lock:
-            held = self._sites.get("open_flags")
-        if state[0] is None:
-            counts = {}
-        elif held is not None and held[0] == state:
-            counts = held[1]
-        elif held is not None and held[0][1:] == state[1:] and held[0][0] < state[0]:
-            counts = dict(held[1])
-            for sid, n in open_flag_counts(conn, ids=(held[0][0], state[0])).items():
-                counts[sid] = counts.get(sid, 0) + n
-        else:
-            counts = open_flag_counts(conn, ids=(0, state[0]))
-        self._keep("open_flags", (state, counts))
+        counts = self._kept_counts("open_flags", log_flag_state(conn), lambda ids: open_flag_counts(
+            conn, ids=(ids[0] or 0, ids[1])))
         return {s: counts[s] for s in site_ids if counts.get(s)}
 
     def reading_counts(self, conn) -> dict[int, int]:
         """Every site's count of reading versions, kept between requests:
         readings are never deleted, so readings saved since are counted alone."""
         top = conn.execute("SELECT MAX(id) FROM readings").fetchone()[0]
+        return self._kept_counts("reading_counts", (top,), lambda ids: reading_counts(conn, ids))
+
+    def _kept_counts(self, key, state: tuple, count) -> dict[int, int]:
+        """Per-site counts kept under ``key``. ``state`` starts with the newest
+        reading id; while the rest of it stays the same and the id only grows,
+        the readings saved since are counted alone and added. ``count((lo,
+        hi))`` counts the readings with lo < id <= hi (lo None: from the first)."""
         with self._lock:
-            held = self._sites.get("reading_counts")
-        if top is None:
+            held = self._sites.get(key)
+        if state[0] is None:
             return {}
-        if held is not None and held[0] == top:
+        if held is not None and held[0] == state:
             return held[1]
-        if held is not None and held[0] < top:
+        if held is not None and held[0][1:] == state[1:] and held[0][0] < state[0]:
             counts = dict(held[1])
-            for sid, n in reading_counts(conn, (held[0], top)).items():
+            for sid, n in count((held[0][0], state[0])).items():
                 counts[sid] = counts.get(sid, 0) + n
         else:
-            counts = reading_counts(conn, (None, top))
-        self._keep("reading_counts", (top, counts))
+            counts = count((None, state[0]))
+        self._keep(key, (state, counts))
         return counts
 
     def _keep(self, key, value) -> None:
