@@ -136,6 +136,8 @@ def test_a_correction_keeps_the_water_type(db):
 
 
 def test_a_reading_stored_before_schema_16_shows_its_water_type(tmp_path):
+    """Schema 016 added the column and changed no row; schema 020 copied the
+    water type of older readings from their result JSON into it."""
     path = tmp_path / store.DB_NAME
     conn = _log_at_schema(path, 15)
     conn.execute("INSERT INTO sites (name, created_at) VALUES ('Well 2', 'x')")
@@ -150,7 +152,8 @@ def test_a_reading_stored_before_schema_16_shows_its_water_type(tmp_path):
         assert conn.execute("PRAGMA user_version").fetchone()[0] >= 16
         sea = store.get_reading(conn, str(uuidlib.UUID(int=1)))
         mixed = store.get_reading(conn, str(uuidlib.UUID(int=2)))
-        assert sea["salt_type"] is None                  # the migration changes no row
+        assert sea["salt_type"] == "sea_salt"            # copied from its JSON by schema 020
+        assert mixed["salt_type"] is None                # mixed: the column stays empty
         assert store.reading_dict(sea)["salt_type"] == "sea_salt"
         assert store.reading_dict(mixed)["salt_type"] is None
         _, rows = export_rows(conn)

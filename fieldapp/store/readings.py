@@ -35,8 +35,9 @@ _READING_SELECT = """
 
 
 #: The columns of :data:`_READING_SELECT` a CSV export writes, nothing else
-#: (no result JSON crosses into Python): the reading's own columns, the joins'
-#: and the water type by :func:`stored_salt_type`'s rule, worked out in SQL.
+#: (no result JSON crosses into Python, and none is read in SQL): the
+#: reading's own columns, the joins' and the water type, whose column holds
+#: it for every reading since schema 020 (NULL: mixed salts or not said).
 _EXPORT_OWN = ("id", "uuid", "sample", "depth_cm", "value", "unit", "temp_c", "compensated",
                "ratio", "sp_pct", "texture", "tds_factor", "theta_g_pct", "matric_MPa",
                "meter", "replicate_group", "note", "taken_at", "recorded_at", "ec25_dS_m",
@@ -45,15 +46,13 @@ _EXPORT_OWN = ("id", "uuid", "sample", "depth_cm", "value", "unit", "temp_c", "c
 
 def export_select(dialect: str = "sqlite") -> str:
     """:data:`_READING_SELECT` narrowed to what the CSV export writes; its
-    ``salt_type`` is never NULL ('' for mixed salts or not said)."""
-    find = "strpos(r.result_json, %s) > 0" if dialect == "postgresql" else \
-        "r.result_json GLOB '*' || %s || '*'"     # GLOB: exact case, quicker than instr
-    salt = (f"CASE WHEN r.salt_type <> '' THEN r.salt_type WHEN "
-            f"{find % repr(_SEA_SALT_IN_JSON)} THEN 'sea_salt' ELSE '' END AS salt_type")
+    ``salt_type`` is never NULL ('' for mixed salts or not said). The same
+    SQL on both backends (``dialect`` kept for callers)."""
     own = ", ".join("r." + c for c in _EXPORT_OWN)
     return _READING_SELECT.replace(
         "SELECT r.*, s.name AS site, st.status, st.void_reason, st.corrected_by_uuid,",
-        f"SELECT {own}, {salt}, s.name AS site, st.status, st.void_reason,", 1)
+        f"SELECT {own}, coalesce(r.salt_type, '') AS salt_type, s.name AS site, st.status, "
+        "st.void_reason,", 1)
 
 
 def existing_uuids(conn, uuids) -> set[str]:
@@ -301,8 +300,9 @@ def iter_readings(conn, site_id=None, sample=None, date_from=None, date_to=None,
 _NOT_IN_RECORD = frozenset(("result_json", "visit_id", "supersedes_id", *VIEW_COLUMNS))
 
 
-#: How a reading stored before schema 016 carries its water type: only inside
-#: its result JSON (written compact by records.build_record).
+#: How a reading stored before schema 016 carries its water type inside its
+#: result JSON (written compact by records.build_record); schema 020 copied it
+#: into the column; readers still look here when the column is empty.
 _SEA_SALT_IN_JSON = '"salt_type":"sea_salt"'
 
 
