@@ -415,6 +415,30 @@ def test_fao61_atlas_list_agrees_with_rows_verified_elsewhere():
         assert c.verified, crop
 
 
+def test_grapefruit_against_fao29_ecw_columns():
+    # FAO 29 Table 4 ECw columns for grapefruit as given in a threshold registry
+    # source file (search tool code corpus, file id 68953719032), read: ECw 1.2 /
+    # 1.6 / 2.2 / 3.3 dS/m at 100 / 90 / 75 / 50 % yield. The table's ECw is
+    # ECe / 1.5 (its soybean 5.0 / 3.3 and corn 1.7 / 1.1 rows, read, keep that
+    # ratio), so threshold 1.8 and slope 50 / (4.95 - 1.8) = 15.9 %/dS/m. One
+    # compilation: the row stays unverified, and Maas (1993) differs (note).
+    ece = [1.5 * x for x in (1.2, 1.6, 2.2, 3.3)]
+    c = tol.CROPS["grapefruit"]
+    assert c.threshold_dS_m == pytest.approx(ece[0], abs=0.05)
+    assert c.slope_pct_per_dS_m == pytest.approx(50 / (ece[3] - ece[0]), abs=0.6)
+    assert not c.verified and "unverified" in c.source
+    assert "68953719032" in c.note and "no second" in c.note and "1993" in c.note
+
+
+def test_broad_bean_range_is_cited_not_counted():
+    # A plant data file (file id 61151037209, read) gives Vicia faba 1.5 to 1.7
+    # dS/m and 9.6 %/dS/m, moderately sensitive: a range with no table named.
+    c = tol.CROPS["broad bean"]
+    assert 1.5 <= c.threshold_dS_m <= 1.7
+    assert (c.slope_pct_per_dS_m, c.tolerance_class) == (9.6, "MS")
+    assert not c.verified and "61151037209" in c.note and "not counted" in c.note
+
+
 def test_thresholds_and_classes_against_pmc6656830_table_1():
     # PMC6656830 Table 1 (read): cotton 7.7 dS/m "Tolerant", wheat 6 dS/m
     # "Moderately tolerant", sugarcane 1.7 dS/m "Moderately sensitive". Its
@@ -444,7 +468,7 @@ def test_widely_grown_crops_verified_or_say_why_not():
         assert "unverified" in c.source, name
     # one compilation found, the second missing: the note says which
     for name in ("sudangrass", "lovegrass", "flax", "almond", "peach", "peanut", "rye",
-                 "triticale", "tall wheatgrass"):
+                 "triticale", "tall wheatgrass", "grapefruit"):
         assert "no second" in tol.CROPS[name].note, name
 
 
