@@ -365,6 +365,80 @@ def test_rows_match_fao29_lists(crop):
     assert c.verified
 
 
+# FAO 61 (Tanji and Kielen 2002) Annex 1 values as given in a land-use atlas data
+# file of the search tool's code corpus (file id 71218416483, repository not
+# shown; it names fao.org/4/y4263e/y4263e0e.htm), read: threshold T (dS/m) and
+# slope b (%/dS/m). Its rows for crops verified from other tables agree (the
+# second dict), so it counts as a compilation. Literal values, not crops.csv.
+FAO61_ATLAS = {
+    # crop: (threshold, slope)     name in that file
+    "durum wheat": (5.9, 3.8),     # "Durum wheat"
+    "cowpea": (4.9, 12.0),         # "Cowpea"
+    "peanut": (3.2, 29.0),         # "Groundnut"
+    "rye": (11.4, 10.8),           # "Rye"
+    "triticale": (6.1, 2.5),       # "Triticale"
+    "tall wheatgrass": (7.5, 4.2), # "Tall wheatgrass"
+}
+FAO61_ATLAS_AGREEMENT = {
+    "barley": (8.0, 5.0), "wheat": (6.0, 7.1), "sorghum": (6.8, 16.0), "rice": (3.0, 12.0),
+    "corn": (1.7, 12.0), "soybean": (5.0, 20.0), "potato": (1.7, 12.0),
+    "sugar beet": (7.0, 5.9), "date palm": (4.0, 3.6), "cotton": (7.7, 5.2),
+    "sunflower": (4.8, 5.0), "bermudagrass": (6.9, 6.4),
+}
+# The second compilation for the rows that now have two (read):
+SECOND_COMPILATION = {
+    # crop: (threshold, slope)     where read
+    "durum wheat": (5.9, 3.8),     # id 71515541170 ("durum"; names Maas 1990 and FAO 29 and 48)
+    "cowpea": (4.9, 12.0),         # id 71127749756 ("Sitaw", "FAO (cowpea)"; names FAO 61 Annex 1)
+}
+
+
+@pytest.mark.parametrize("crop", sorted(FAO61_ATLAS))
+def test_rows_match_fao61_atlas_list(crop):
+    a, b = FAO61_ATLAS[crop]
+    c = tol.find_crop(crop)
+    assert (c.threshold_dS_m, c.slope_pct_per_dS_m) == (a, b)
+    if crop in SECOND_COMPILATION:
+        assert SECOND_COMPILATION[crop] == (a, b)
+        assert c.verified and "(read)" in c.source
+        assert "71218416483" in c.source
+    else:
+        # one compilation only: the row stays unverified and its note says so
+        assert not c.verified and "unverified" in c.source
+        assert "71218416483" in c.note and "no second" in c.note
+
+
+def test_fao61_atlas_list_agrees_with_rows_verified_elsewhere():
+    for crop, (a, b) in FAO61_ATLAS_AGREEMENT.items():
+        c = tol.find_crop(crop)
+        assert (c.threshold_dS_m, c.slope_pct_per_dS_m) == (a, b), crop
+        assert c.verified, crop
+
+
+def test_grapefruit_against_fao29_ecw_columns():
+    # FAO 29 Table 4 ECw columns for grapefruit as given in a threshold registry
+    # source file (search tool code corpus, file id 68953719032), read: ECw 1.2 /
+    # 1.6 / 2.2 / 3.3 dS/m at 100 / 90 / 75 / 50 % yield. The table's ECw is
+    # ECe / 1.5 (its soybean 5.0 / 3.3 and corn 1.7 / 1.1 rows, read, keep that
+    # ratio), so threshold 1.8 and slope 50 / (4.95 - 1.8) = 15.9 %/dS/m. One
+    # compilation: the row stays unverified, and Maas (1993) differs (note).
+    ece = [1.5 * x for x in (1.2, 1.6, 2.2, 3.3)]
+    c = tol.CROPS["grapefruit"]
+    assert c.threshold_dS_m == pytest.approx(ece[0], abs=0.05)
+    assert c.slope_pct_per_dS_m == pytest.approx(50 / (ece[3] - ece[0]), abs=0.6)
+    assert not c.verified and "unverified" in c.source
+    assert "68953719032" in c.note and "no second" in c.note and "1993" in c.note
+
+
+def test_broad_bean_range_is_cited_not_counted():
+    # A plant data file (file id 61151037209, read) gives Vicia faba 1.5 to 1.7
+    # dS/m and 9.6 %/dS/m, moderately sensitive: a range with no table named.
+    c = tol.CROPS["broad bean"]
+    assert 1.5 <= c.threshold_dS_m <= 1.7
+    assert (c.slope_pct_per_dS_m, c.tolerance_class) == (9.6, "MS")
+    assert not c.verified and "61151037209" in c.note and "not counted" in c.note
+
+
 def test_thresholds_and_classes_against_pmc6656830_table_1():
     # PMC6656830 Table 1 (read): cotton 7.7 dS/m "Tolerant", wheat 6 dS/m
     # "Moderately tolerant", sugarcane 1.7 dS/m "Moderately sensitive". Its
@@ -384,16 +458,17 @@ def test_widely_grown_crops_verified_or_say_why_not():
     # what was found and what is missing.
     verified = ("wheat", "barley", "cotton", "rice", "corn", "sorghum", "soybean", "alfalfa",
                 "potato", "tomato", "orange", "sunflower", "date palm", "bermudagrass",
-                "sugar beet", "grape", "plum", "sugarcane")
+                "sugar beet", "grape", "plum", "sugarcane", "durum wheat", "cowpea")
     for name in verified:
         assert tol.CROPS[name].verified, name
         assert "(read)" in tol.CROPS[name].source, name
-    for name in ("peanut", "grapefruit", "durum wheat", "flax", "almond", "peach"):
+    for name in ("peanut", "grapefruit", "flax", "almond", "peach", "rye", "triticale"):
         c = tol.CROPS[name]
         assert not c.verified, name
         assert "unverified" in c.source, name
     # one compilation found, the second missing: the note says which
-    for name in ("sudangrass", "lovegrass", "durum wheat", "flax", "almond", "peach"):
+    for name in ("sudangrass", "lovegrass", "flax", "almond", "peach", "peanut", "rye",
+                 "triticale", "tall wheatgrass", "grapefruit"):
         assert "no second" in tol.CROPS[name].note, name
 
 
