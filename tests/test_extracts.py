@@ -371,6 +371,23 @@ def test_texture_only_1to5_uses_slavich_petterson(texture):
     assert est.uncertainty_pct is not None and "SP range" in est.uncertainty_basis
 
 
+@pytest.mark.parametrize("ratio", ["1:5", "1:10"])
+@pytest.mark.parametrize("texture", sorted(USDA_TEXTURE_CLASSES))
+def test_a_note_using_the_class_sp_says_how_far_it_is_checked(ratio, texture):
+    # No class SP has been read in a published SP table (textures.csv: from
+    # memory, or derived by the SP ~ 2 x field capacity rule of the UC Davis
+    # ANLAB note / USDA Handbook 60), so every note that uses one must say
+    # "unverified" on screen, and a derived one must also say how it was made.
+    tex = ex.find_texture(texture)
+    for est in (ex.estimate_ece(0.4, "extract", ratio_n=ratio, texture=texture),
+                ex.estimate_ece(0.4, "extract", ratio_n=ratio, texture=texture,
+                                method=f"sp_dilution:texture:{texture}")):
+        assert f"SP of {texture} ({tex.sp_pct:g} %" in est.note
+        assert tex.sp_status in est.note and "unverified" in est.note
+        if tex.verified == "derived":
+            assert "2 × field capacity" in est.note
+
+
 def test_texture_only_1to5_no_longer_uses_ideal_dilution_on_light_soils():
     # The ideal dilution 500/SP ran 40-100 % above the published relation on
     # light soils (sand, SP 18 %: 27.8 against 19.3); loam +26 %.
