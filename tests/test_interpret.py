@@ -194,10 +194,10 @@ def test_substrate_tests_against_their_own_method_ranges(sample, value, level):
 
 
 def test_substrate_ranges_against_the_umass_worked_example():
-    # UMass Extension Greenhouse Best Management Practices manual, Soil Testing
-    # (its text read in two copies; see substrate_ranges.csv): "2.6 would be
-    # 'extreme' (too high) for the 1:2 method, 'normal' for SME, and 'low' for
-    # leachate Pour Thru".
+    # The UMass Extension greenhouse media-testing text (read in a county
+    # extension blog's copy; see substrate_ranges.csv): "2.6 would be 'extreme'
+    # (too high) for the 1:2 method, 'normal' for SME, and 'low' for leachate
+    # pourthru".
     def level(sample, **kw):
         return interpret.site_summary(CUCUMBER_BENCH, [rec(sample, 2.6, **kw)])["substrate"][0]
     assert level("media", ratio="1:2")["level"] == "extreme"
