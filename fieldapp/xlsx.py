@@ -168,7 +168,8 @@ def _checked(source: str, verified: str | None = None) -> str:
     if verified is not None:
         v = (verified or "").strip().lower()
         return {"yes": "checked against the published table",
-                "derived": "derived from a published table by a stated rule"}.get(v, "unverified")
+                "derived": "derived from a published table by a stated rule; not read in a "
+                           "published table of its own, so unverified"}.get(v, "unverified")
     low = source.lower()
     if "from memory" in low or "unverified" in low:
         return "unverified"

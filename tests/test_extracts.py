@@ -371,6 +371,23 @@ def test_texture_only_1to5_uses_slavich_petterson(texture):
     assert est.uncertainty_pct is not None and "SP range" in est.uncertainty_basis
 
 
+@pytest.mark.parametrize("ratio", ["1:5", "1:10"])
+@pytest.mark.parametrize("texture", sorted(USDA_TEXTURE_CLASSES))
+def test_a_note_using_the_class_sp_says_how_far_it_is_checked(ratio, texture):
+    # No class SP has been read in a published SP table (textures.csv: from
+    # memory, or derived by the SP ~ 2 x field capacity rule of the UC Davis
+    # ANLAB note / USDA Handbook 60), so every note that uses one must say
+    # "unverified" on screen, and a derived one must also say how it was made.
+    tex = ex.find_texture(texture)
+    for est in (ex.estimate_ece(0.4, "extract", ratio_n=ratio, texture=texture),
+                ex.estimate_ece(0.4, "extract", ratio_n=ratio, texture=texture,
+                                method=f"sp_dilution:texture:{texture}")):
+        assert f"SP of {texture} ({tex.sp_pct:g} %" in est.note
+        assert tex.sp_status in est.note and "unverified" in est.note
+        if tex.verified == "derived":
+            assert "2 × field capacity" in est.note
+
+
 def test_texture_only_1to5_no_longer_uses_ideal_dilution_on_light_soils():
     # The ideal dilution 500/SP ran 40-100 % above the published relation on
     # light soils (sand, SP 18 %: 27.8 against 19.3); loam +26 %.
@@ -449,10 +466,11 @@ def test_every_regression_row_states_its_range_basis():
 # Substrate interpretation ranges
 # ---------------------------------------------------------------------------
 
-# Soluble-salt interpretation by method (1:2 / SME / PourThru), dS/m, read from
-# an extension-derived copy of the table (origin Cavins et al. 2000 NC State
-# HIL 590 - attribution from memory). The copy prints 0-0.03 for the first 1:2
-# band; the next band starts at 0.3.
+# Soluble-salt interpretation by method (1:2 / SME / PourThru), dS/m, read in a
+# reworded web copy of a UMass Extension greenhouse table ("Table 2. Soluble
+# salts levels ... by different methods of soilless media analysis"; origin
+# Cavins et al. 2000 NC State HIL 590 - attribution from memory). The copy
+# prints 0-0.03 for the first 1:2 band; the next band starts at 0.3.
 SUBSTRATE_TABLE = {
     "media_1to2": [(0, 0.3), (0.3, 0.8), (0.8, 1.3), (1.3, 1.8), (1.8, 2.3), (2.3, math.inf)],
     "sme": [(0, 0.8), (0.8, 2.0), (2.0, 3.5), (3.5, 5.0), (5.0, 6.0), (6.0, math.inf)],
@@ -489,3 +507,11 @@ def test_substrate_ranges_name_publication_and_method():
             assert "Leaflet 590" in r.source and "Cavins" in r.source and "2000" in r.source
             assert word in r.source, (method, r.level)
             assert r.verified == "unverified" and "unverified" in r.source
+            # where the numbers were read: the reworded web copy of the UMass
+            # Extension table, and the UMass Soil Testing chapter that was checked
+            assert "Table 2. Soluble salts levels" in r.source and "lestrompettes" in r.source
+            assert "ag.umass.edu/book/export/html/9864" in r.source
+            # the short citation a screen shows names the leaflet, the method
+            # and the status too
+            short = {"media_1to2": "1:2", "sme": "SME", "pour_through": "pour-through"}[method]
+            assert "Leaflet 590" in r.cite and short in r.cite and "unverified" in r.cite

@@ -320,6 +320,11 @@ def test_workbook_cell_by_cell_against_the_log(log, app, db):
     for text in CAUTIONS:
         assert text in flat
     assert any(row[4] == "unverified" for row in sources)  # textures SP ranges unverified
+    # no class SP has been read in a published SP table (textures.csv): a
+    # derived one says how it was made and that it is unverified too
+    tex_rows = [row for row in sources if str(row[0]).startswith("Texture")]
+    assert {row[1] for row in tex_rows} >= {"clay loam", "loam"}
+    assert all("unverified" in row[4] for row in tex_rows)
 
 
 def test_workbook_of_one_site_and_an_unknown_site(log):

@@ -153,7 +153,7 @@ def _texture_estimate(ec, n, tex: Texture, by_name: bool) -> EceEstimate:
                        f"sp_dilution:texture:{tex.name}", SP_DILUTION_UNCERTAINTY_PCT,
                        f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
                        f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} "
-                       "%); a measured SP is better.",
+                       f"%; {tex.sp_status}); a measured SP is better.",
                        SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
                        tex.sp_pct)
         return _combine(ec, first, nobelow, None, n)

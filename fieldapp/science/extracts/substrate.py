@@ -18,12 +18,15 @@ class SubstrateRange:
     hi_dS_m: float  # math.inf for the open top band
     source: str
     verified: str = "unverified"
+    #: the short citation a screen shows (``source`` says in full where each
+    #: value was read and what was checked)
+    cite: str = ""
 
 
 _SUBSTRATE_ROWS = [
     SubstrateRange(r["method"], r["level"], float(r["lo_dS_m"]),
                    float(r["hi_dS_m"]) if r["hi_dS_m"] else math.inf, r["source"],
-                   r.get("verified") or "unverified")
+                   r.get("verified") or "unverified", r.get("cite") or "")
     for r in load_table("substrate_ranges")
 ]
 SUBSTRATE_METHODS: tuple[str, ...] = tuple(dict.fromkeys(r.method for r in _SUBSTRATE_ROWS))
@@ -51,9 +54,11 @@ def substrate_ranges(method) -> list[SubstrateRange]:
 
     References
     ----------
-    ``substrate_ranges.csv``: attributed to Cavins et al. (2000), NC State
-    University Horticulture Information Leaflet 590, read from a web copy of
-    the table; marked "unverified" until checked against the leaflet.
+    ``substrate_ranges.csv``: read in a reworded web copy of a UMass Extension
+    greenhouse table (1:2, SME and pour-through columns), the table attributed
+    to Cavins et al. (2000), NC State University Horticulture Information
+    Leaflet 590; each row says where it was read and stays "unverified" until
+    someone checks it against the leaflet's or UMass's own table.
 
     Examples
     --------

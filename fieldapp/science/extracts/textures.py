@@ -21,6 +21,19 @@ class Texture:
     #: "derived" (computed from a read table by a stated rule) or "unverified".
     verified: str = "unverified"
 
+    @property
+    def sp_status(self) -> str:
+        """How far the class SP is checked, in words for a note on a screen:
+        every note that uses the class SP carries it, so a value nobody has
+        read in a published SP table never reaches a screen unmarked."""
+        v = (self.verified or "").strip().lower()
+        if v == "yes":
+            return "class SP checked against its published table"
+        if v == "derived":
+            return ("class SP derived from a published field-capacity table by the "
+                    "rule SP ≈ 2 × field capacity, not read in a published SP table; unverified")
+        return "class SP not checked against a published table; unverified"
+
 
 def _norm(name: str) -> str:
     s = str(name).strip().lower().replace("_", " ").replace("-", " ")
