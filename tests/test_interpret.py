@@ -203,16 +203,29 @@ def test_substrate_ranges_against_the_umass_worked_example():
     assert level("media", ratio="1:2")["level"] == "extreme"
     assert level("sme")["level"] == "normal"
     # Pour-through: 2.6 is the shared limit of the table's low (1.0-2.6) and
-    # normal (2.6-4.6) rows; the text puts it in low, this app's rule (lower
-    # limit inclusive) in normal. The data file says so beside both rows.
+    # normal (2.6-4.6) rows; the text puts it in low, and so does this app
+    # (a shared limit belongs to the lower band).
     pt = level("leachate")
-    assert pt["level"] in ("low", "normal")
+    assert pt["level"] == "low"
     bands = {g["level"]: g for g in pt["ranges"]}
     assert bands["low"]["hi_dS_m"] == bands["normal"]["lo_dS_m"] == 2.6
     from fieldapp.science import extracts
     for r in extracts.substrate_ranges("pour_through"):
         if r.level in ("low", "normal"):
-            assert "not low as in that worked example" in r.source, r.level
+            assert "2.6 reads low here, as in that worked example" in r.source, r.level
+
+
+@pytest.mark.parametrize("sample,value,level", [
+    # A limit two bands share belongs to the lower band (the worked example
+    # above); just past it, the next band; the lowest band holds 0 itself.
+    # Limits as the table rows read (substrate_ranges.csv).
+    ("sme", 3.5, "normal"), ("sme", 3.51, "high"), ("sme", 0.0, "very_low"),
+    ("media", 0.8, "low"), ("media", 0.81, "normal"), ("leachate", 1.0, "very_low"),
+    ("leachate", 6.5, "high"), ("leachate", 7.8, "very_high"), ("leachate", 7.81, "extreme")])
+def test_a_shared_substrate_limit_belongs_to_the_lower_band(sample, value, level):
+    kw = {"ratio": "1:2"} if sample == "media" else {}
+    subs = interpret.site_summary(CUCUMBER_BENCH, [rec(sample, value, **kw)])["substrate"]
+    assert subs[0]["level"] == level, (sample, value, subs[0]["level"])
 
 
 def test_substrate_screen_source_is_marked_unverified():

@@ -175,11 +175,16 @@ def feed_leachate_days(days: list[Mapping], targets: Mapping[str, Mapping] | Non
 
 
 def _level(ec: float, ranges) -> tuple[str | None, str]:
-    for rg in ranges:
-        if rg.lo_dS_m <= ec < rg.hi_dS_m:
+    """The band an EC falls in. A limit the table prints at the end of one
+    band and the start of the next (pour-through "1.0-2.6 low", "2.6-4.6
+    normal") belongs to the lower band: the UMass text's own worked example
+    reads 2.6 dS/m as "low for pour-through" (see substrate_ranges.csv). The
+    lowest band holds its lower limit too (0 dS/m)."""
+    for k, rg in enumerate(ranges):
+        if (rg.lo_dS_m < ec or (k == 0 and rg.lo_dS_m == ec)) and ec <= rg.hi_dS_m:
             return rg.level, ""
     # in a gap left by the published table (pour-through 6.5-6.6): say so
-    below = [rg for rg in ranges if rg.hi_dS_m <= ec]
+    below = [rg for rg in ranges if rg.hi_dS_m < ec]
     if below:
         b = below[-1]
         return b.level, f"between the table's {b.level} and the next level (a gap in the table)"

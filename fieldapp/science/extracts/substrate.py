@@ -11,7 +11,8 @@ from .textures import _norm
 
 @dataclass(frozen=True)
 class SubstrateRange:
-    """One interpretation band of a substrate test (dS/m, lo inclusive)."""
+    """One interpretation band of a substrate test (dS/m): above ``lo`` up to and
+    including ``hi`` (the lowest band from 0 itself); see interpret.solutions._level."""
     method: str
     level: str
     lo_dS_m: float
@@ -49,7 +50,7 @@ def substrate_ranges(method) -> list[SubstrateRange]:
     Returns
     -------
     list of SubstrateRange
-        The bands, lowest first, in dS/m (``lo`` inclusive); an unknown method
+        The bands, lowest first, in dS/m (a shared limit in the lower band); an unknown method
         raises :class:`InputError` (field ``"method"``).
 
     References
