@@ -55,7 +55,8 @@ def test_every_flagged_reading_is_ringed_and_listed(client, db):
     # the caption counts them, lists the latest ten and links to all of them
     assert f"{len(flagged)} flagged readings on this chart" in html
     listed = re.search(r'<ul class="sv-flagged-list[^"]*">(.*?)</ul>', html, re.S).group(1)
-    assert listed.count("<li>") == 10 and "unit_slip" in listed
+    assert listed.count("<li>") == 10 and "Unit looks wrong" in listed   # names, not codes
+    assert "unit_slip" not in listed
     link = re.search(r'<a href="([^"]+)" class="flagged-link">', html).group(1)
     # the flagged list, newest first, page by page, holds each flagged reading once
     seen, url = [], link.replace("&amp;", "&")

@@ -133,6 +133,9 @@ def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -
       its ``data-key`` and label (the latest, :func:`latest_flagged`); the
       others are drawn as ring and mark only (``g.flagged-more``), so a long
       series of unit slips stays a small picture. Default: all of them.
+    * ``flagged_picked`` (optional): those latest points as
+      :func:`latest_flagged` gave them for ``label_flagged``, where the caller
+      has picked them already (to list them beside the chart).
     * ``ref`` (optional): prefix of the ids of the chart's ``<defs>``, unique
       in the page (default ``fm-`` and the spec's ``id``).
 
@@ -169,8 +172,9 @@ def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -
     if hl is not None:
         body += _highlight(X(hl), box)
     most = spec.get("label_flagged")
+    picked = spec.get("flagged_picked")
     labelled = (None if most is None else
-                {id(p) for _, p in latest_flagged(series, most)})
+                {id(p) for _, p in (latest_flagged(series, most) if picked is None else picked)})
     body += _series(series, X, Y, labelled, spec.get("ref") or f'fm-{spec.get("id", "c")}-')
     body.append(f'<rect x="{_f(x0)}" y="{_f(mt)}" width="{_f(x1 - x0)}" height="{_f(plot_height)}" '
                 f'fill="none" stroke="#000" stroke-width="1"/>')

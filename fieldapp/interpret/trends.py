@@ -6,6 +6,7 @@ import datetime as dt
 from collections import defaultdict
 from typing import Iterable, Mapping
 
+from ..labels import flag_label
 from ..science import tolerance
 from .common import (SOIL_KINDS, SOLUTION_KINDS, _day, _ec25, _ece, _flags,
                      current_readings, depth_label, is_flagged, short_number, site_crop)
@@ -58,10 +59,10 @@ def _point(r: Mapping, y: float, series: str) -> dict:
 
 def _label_point(p: dict) -> dict:
     series, r = p.pop("_label")
-    codes = [f["code"] for f in _flags(r)]
+    names = [flag_label(f["code"]) for f in _flags(r)]
     label = f"{series} · {str(r.get('taken_at') or '')[:10]} · {short_number(p['y'])} dS/m"
-    if codes:
-        label += " · flags: " + ", ".join(codes)
+    if names:                           # the names a person reads, as in the site log
+        label += " · " + "; ".join(names)
     p["label"] = label
     return p
 

@@ -174,24 +174,27 @@ def _with_flags(conn, rows: list[dict]) -> list[dict]:
 
 # ---------------------------------------------------------------- kept between requests
 
+#: How many voids and corrections the log holds: a void or a correction takes
+#: a reading out of "current"; readings are never updated or deleted, so
+#: nothing else can. Two index lookups, shared by the two states below.
+_OUT_OF_CURRENT = ("(SELECT COUNT(*) FROM voids), "
+                   "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL)")
+
+
 def log_state(conn, site_id: int) -> tuple:
     """What tells whether a site's current readings changed: its newest
-    reading id, and how many voids and corrections the log holds (a void or a
-    correction takes a reading out of "current"; readings are never updated
-    or deleted, so nothing else can). Three index lookups."""
+    reading id and the voids and corrections counted by :data:`_OUT_OF_CURRENT`."""
     return tuple(conn.execute(
-        "SELECT (SELECT MAX(id) FROM readings WHERE site_id = ?), (SELECT COUNT(*) FROM voids), "
-        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL)",
+        f"SELECT (SELECT MAX(id) FROM readings WHERE site_id = ?), {_OUT_OF_CURRENT}",
         (site_id,)).fetchone())
 
 
 def log_flag_state(conn) -> tuple:
     """What tells whether the sites list's "to check" counts changed: the
-    newest reading id and how many voids, corrections and acknowledgements
-    the log holds."""
+    newest reading id, the voids and corrections (:data:`_OUT_OF_CURRENT`)
+    and how many acknowledgements the log holds."""
     return tuple(conn.execute(
-        "SELECT (SELECT MAX(id) FROM readings), (SELECT COUNT(*) FROM voids), "
-        "(SELECT COUNT(supersedes_id) FROM readings WHERE supersedes_id IS NOT NULL), "
+        f"SELECT (SELECT MAX(id) FROM readings), {_OUT_OF_CURRENT}, "
         "(SELECT COUNT(*) FROM flag_acks)").fetchone())
 
 

@@ -58,9 +58,11 @@ def _chart_figures(specs: list[dict], site_id: int) -> list[dict]:
     for k, s in enumerate(specs):
         series = s["series"]
         n_flagged = sum(1 for x in series for p in x["points"] if p.get("flagged"))
-        latest = charts.latest_flagged(series, FLAGGED_LABELS)[::-1]      # newest first
+        picked = charts.latest_flagged(series, FLAGGED_LABELS)
+        latest = picked[::-1]                                               # newest first
         out.append({"id": s["id"], "title": s["title"],
                     "svg": _svg(charts.trend_svg(dict(s, label_flagged=FLAGGED_LABELS,
+                                                          flagged_picked=picked,
                                                           ref=f"f{k}-"))),
                     "bands_source": s.get("bands_source"),
                     "n_points": sum(len(x["points"]) for x in series),
