@@ -240,3 +240,33 @@ def test_lines_split_across_read_blocks_are_read_whole(client, monkeypatch, endi
     got = reading.read_export(io.StringIO("\ufeff" + buf.getvalue(), newline=""))
     assert [r["note"] for r in got] == [r[rows[0].index("note")] for r in rows[1:]]
     assert len(got) == 2
+
+
+def test_export_lines_are_the_text_csv_writer_writes(client):
+    """The export joins cells it quoted a column at a time (fieldapp.csvtext);
+    Python's csv.writer (RFC 4180 quoting, the excel dialect) is the reference:
+    reading the export with csv.reader and writing the rows back with
+    csv.writer gives the same text, character for character."""
+    add(client, value="4.2", note='said "wet", then left')
+    add(client, value="1.1", note="two\r\nlines, and a comma", site='Bench "4", east')
+    add(client, value="2.2", note="=1+2", sample="extract", ratio="1:5", texture="loam",
+        compensated=False, temp_c="31")
+    add(client, value="0.9", note="plain")
+    text = export_text(client)[1:]
+    rows = list(csv.reader(io.StringIO(text, newline="")))
+    again = io.StringIO()
+    csv.writer(again, lineterminator="\r\n").writerows(rows)
+    assert text == again.getvalue()
+    assert len(rows) == 5 and any('"wet"' in c for r in rows for c in r)
+
+
+def test_csv_quoted_matches_csv_writer_cell_by_cell():
+    """fieldapp.csvtext.csv_quoted against Python's csv.writer, one cell per row."""
+    from fieldapp.csvtext import csv_quoted
+    cells = ["", "a", "a,b", 'q"q', "line\nbreak", "cr\rx", "crlf\r\n", " lead", "µS/cm",
+             "'1:5", None, '"', ",", "x" * 50]
+    for cell in cells:
+        buf = io.StringIO()
+        csv.writer(buf, lineterminator="\r\n").writerow(["x", cell])
+        assert "x," + csv_quoted([cell])[0] + "\r\n" == buf.getvalue(), repr(cell)
+    assert csv_quoted(["a", "b"]) == ["a", "b"]

@@ -7,10 +7,10 @@ from __future__ import annotations
 
 import json
 import math
-import re
 
 import numpy as np
 
+from ..csvtext import QUOTE_OR_BREAK_RE as _QUOTE_OR_BREAK_RE, csv_quoted
 from ..fmt import number
 
 
@@ -64,23 +64,8 @@ def _write_json(dst, in_cols, in_columns, out, out_cols, n):
         dst.write(json.dumps(rec, ensure_ascii=False) + "\n")
 
 
-#: A cell csv.writer quotes (QUOTE_MINIMAL, excel dialect, CRLF lines):
-#: one holding a comma, a double quote or a line break.
-_NEEDS_QUOTES_RE = re.compile(r'[,"\r\n]')
-_QUOTE_OR_BREAK_RE = re.compile(r'["\r\n]')
-
-
-def _csv_cells(col) -> list[str]:
-    """A column as the text csv.writer writes for each cell (None as empty,
-    a cell with a comma, quote or line break in quotes)."""
-    try:
-        joined = ",".join(col)
-    except TypeError:
-        col = ["" if c is None else str(c) for c in col]
-        joined = ",".join(col)
-    if joined.count(",") == len(col) - 1 and not _QUOTE_OR_BREAK_RE.search(joined):
-        return col
-    return ['"' + c.replace('"', '""') + '"' if _NEEDS_QUOTES_RE.search(c) else c for c in col]
+#: The quoting csv.writer does, one column at a time (shared with the export).
+_csv_cells = csv_quoted
 
 
 def _computed_cells(out: dict, out_cols) -> list[list[str]]:

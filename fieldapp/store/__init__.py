@@ -42,7 +42,8 @@ from .pairing import (active_pairing_codes, add_pairing_failure, device_by_token
 from .rescue import (SQLITE_HEADER, connect_readonly, inspect_log, integrity_problems,
                      log_summary, unwritable_reason, _restore_hint)  # noqa: F401
 from .paging import (PAGE_DEFAULT, PAGE_MAX, PageError, decode_cursor, encode_cursor,
-                     iter_readings_keyset, page_limit, readings_page, sites_page)  # noqa: F401
+                     iter_reading_batches, iter_readings_keyset, page_limit, readings_page,
+                     sites_page)  # noqa: F401
 from .imports import (drop_import_job, finish_import_job, import_clashes, import_job,
                       plan_add, plan_depths, plan_first_bad_status, plan_first_bad_target,
                       plan_first_self_or_twice, plan_marks, plan_reset, plan_seen,

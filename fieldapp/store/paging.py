@@ -21,14 +21,29 @@ def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
     row that can still be read; ``report["skipped"]`` counts the ids passed over.
     ``select``: the reading query, or a narrower one of the same joins
     (``export_select``)."""
+    for rows in iter_reading_batches(conn, site_id, batch, skip_damaged, report, select):
+        yield from rows
+
+
+def iter_reading_batches(conn, site_id: int | None = None, batch: int = 500,
+                         skip_damaged: bool = True, report: dict | None = None,
+                         select: str = _READING_SELECT, tuples: bool = False) -> Iterator[list]:
+    """:func:`iter_readings_keyset` a batch at a time, each a list of rows;
+    with ``tuples`` plain tuples in the order of ``select``'s columns (whose
+    first is ``r.id``), which a bulk reader (the CSV export) takes a column
+    at a time without making a Row of each."""
     where = " AND r.site_id = ?" if site_id is not None else ""
     sql = select + " WHERE r.id > ?" + where + " ORDER BY r.id LIMIT ?"
     one = select + " WHERE r.id = ?" + where
     last, skipped, top = 0, 0, None
+    cur = conn                          # PostgreSQL's rows are tuples already
+    if tuples and isinstance(conn, sqlite3.Connection):
+        cur = conn.cursor()
+        cur.row_factory = None
     while True:
         args = [last] + ([site_id] if site_id is not None else []) + [batch]
         try:
-            rows = conn.execute(sql, args).fetchall()
+            rows = cur.execute(sql, args).fetchall()
         except sqlite3.DatabaseError:
             if not skip_damaged or dialect(conn) == "postgresql":
                 raise          # PostgreSQL has no damaged pages to step over: report it
@@ -41,8 +56,8 @@ def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
             while not rows and last < top:
                 last += 1
                 try:
-                    rows = conn.execute(one, [last] + ([site_id] if site_id is not None
-                                                       else [])).fetchall()
+                    rows = cur.execute(one, [last] + ([site_id] if site_id is not None
+                                                      else [])).fetchall()
                 except sqlite3.DatabaseError:
                     skipped += 1
             if report is not None:
@@ -51,8 +66,8 @@ def iter_readings_keyset(conn, site_id: int | None = None, batch: int = 500,
                 return
         if not rows:
             return
-        yield from rows
-        last = rows[-1]["id"]
+        yield rows
+        last = rows[-1][0] if tuples else rows[-1]["id"]
 
 
 # ---- keyset paging (every list is paged: ``limit`` and ``after``)

@@ -172,6 +172,13 @@ class Cursor:
         return self._cur.description
 
     @property
+    def names(self) -> list[str]:
+        """The result's column names as the SQL spells them (PostgreSQL folds
+        unquoted names to lower case: matric_MPa comes back matric_mpa)."""
+        canon = _names_in(self._sql)
+        return [canon.get(c.name, c.name) for c in self._cur.description or ()]
+
+    @property
     def rowcount(self) -> int:
         return self._cur.rowcount
 
