@@ -15,7 +15,7 @@ from . import __version__, store
 import numpy as np
 
 from .forms import parse_number, validate_reading
-from .results import result_for_row
+from .results import RoundedColumns, result_for_row
 from .science import InputError
 from .science.convert import convert_batch, make_batch
 
@@ -172,7 +172,8 @@ def convert_readings(ds: list[dict]) -> list[dict]:
         arr[:] = cols[k]
         cols[k] = arr
     out = _as_lists(convert_batch(make_batch(**cols)))
-    return [result_for_row(out, i, kw) for i, kw in enumerate(kws)]
+    rounded = RoundedColumns(out)           # each column rounded once, not a cell at a time
+    return [result_for_row(out, i, kw, rounded) for i, kw in enumerate(kws)]
 
 
 def _as_lists(out: dict) -> dict:

@@ -8,7 +8,8 @@ the sun, and an ``action`` saying what to do about it.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, asdict, field
+from copy import deepcopy
+from dataclasses import dataclass, field
 
 SEVERITIES = ("info", "warning", "error")
 
@@ -26,10 +27,13 @@ class Flag:
             raise ValueError(f"unknown severity {self.severity!r}")
 
     def as_dict(self) -> dict:
-        d = asdict(self)
-        if not d["data"]:
-            d.pop("data")
-        else:   # JSON has no NaN or infinity: an undefined figure is null
-            d["data"] = {k: (None if isinstance(v, float) and not math.isfinite(v) else v)
-                         for k, v in d["data"].items()}
+        """The flag as JSON-ready dict (what ``dataclasses.asdict`` gives, its
+        data copied; JSON has no NaN or infinity, so an undefined figure is
+        null), written out field by field: every stored reading makes one."""
+        d = {"code": self.code, "severity": self.severity, "message": self.message,
+             "action": self.action}
+        if self.data:
+            d["data"] = {k: (None if isinstance(v, float) and not math.isfinite(v) else
+                             deepcopy(v) if isinstance(v, (list, dict, tuple)) else v)
+                         for k, v in self.data.items()}
         return d
