@@ -92,6 +92,16 @@ def latest_flagged(series, most: int | None) -> list[tuple[int, dict]]:
     return [(i, p) for _, i, p in pts]
 
 
+def _labelled(spec: Mapping, series) -> set | None:
+    """Ids of the flagged points drawn with a label (``label_flagged``, the
+    caller's ``flagged_picked`` where given); None: every one."""
+    most = spec.get("label_flagged")
+    if most is None:
+        return None
+    picked = spec.get("flagged_picked")
+    return {id(p) for _, p in (latest_flagged(series, most) if picked is None else picked)}
+
+
 def _series(series, X, Y, labelled=None, ref: str = "f") -> list[str]:
     """Each series: its line in time order, then its marks. ``labelled``: ids
     of the flagged points drawn with a label (None: every one); the other
@@ -171,11 +181,8 @@ def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -
     body.append(band_labels)
     if hl is not None:
         body += _highlight(X(hl), box)
-    most = spec.get("label_flagged")
-    picked = spec.get("flagged_picked")
-    labelled = (None if most is None else
-                {id(p) for _, p in (latest_flagged(series, most) if picked is None else picked)})
-    body += _series(series, X, Y, labelled, spec.get("ref") or f'fm-{spec.get("id", "c")}-')
+    body += _series(series, X, Y, _labelled(spec, series),
+                    spec.get("ref") or f'fm-{spec.get("id", "c")}-')
     body.append(f'<rect x="{_f(x0)}" y="{_f(mt)}" width="{_f(x1 - x0)}" height="{_f(plot_height)}" '
                 f'fill="none" stroke="#000" stroke-width="1"/>')
     items = _legend_items(series, any(p.get("flagged") for _, p in pts), shown, hidden,
