@@ -33,13 +33,11 @@ from __future__ import annotations
 from fieldapp.lazy import numpy as np  # imported at the first np.name: a faster start
 
 from .. import InputError
-from .dilution import (PASTE_UNCERTAINTY_PCT, PASTE_UNCERTAINTY_SOURCE,
-                       SP_DILUTION_UNCERTAINTY_PCT, SP_DILUTION_UNCERTAINTY_SOURCE, _as_ec,
-                       _check_sp, ece_sp_dilution)
+from .dilution import PASTE_UNCERTAINTY_PCT, PASTE_UNCERTAINTY_SOURCE, _as_ec, _check_sp
 from .kinds import SAMPLE_KINDS, check_ratio_n
 from .regressions import _same_ratio, default_regression, find_regression
-from .routes import (EceEstimate, _below_range_route, _combine, _line_route, _Route,
-                     _sp_route, _texture_route)
+from .routes import (EceEstimate, _below_range_route, _combine, _line_route, _sp_route,
+                     _texture_route, class_sp_dilution)
 from .textures import Texture, find_texture
 
 
@@ -149,14 +147,7 @@ def _texture_estimate(ec, n, tex: Texture, by_name: bool) -> EceEstimate:
     when the dilution method was asked for by name."""
     nobelow = np.zeros(ec.shape, dtype=bool)
     if by_name:   # dilution asked for by name
-        first = _Route(ece_sp_dilution(ec, n, tex.sp_pct),
-                       f"sp_dilution:texture:{tex.name}", SP_DILUTION_UNCERTAINTY_PCT,
-                       f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
-                       f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} "
-                       f"%; {tex.sp_status}); a measured SP is better.",
-                       SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
-                       tex.sp_pct)
-        return _combine(ec, first, nobelow, None, n)
+        return _combine(ec, class_sp_dilution(ec, n, tex), nobelow, None, n)
     first, treg = _texture_route(ec, n, tex)
     below = ec < treg.min_ec_dS_m if treg is not None else nobelow
     fb = _below_range_route(ec, n, treg, None, tex) if below.any() else None

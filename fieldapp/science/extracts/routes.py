@@ -92,8 +92,7 @@ def _texture_route(ec, n, tex: Texture) -> tuple[_Route, Regression | None]:
             ec * f, f"regression:{reg.name}", _texture_spread_pct(tex),
             f"Estimated with Slavich and Petterson 1993 (Australian soils), "
             f"ECe = (2.46 + 3.03/θSP) × EC1:5, with the typical SP of {tex.name} "
-            f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %; "
-            f"{tex.sp_status}): factor {f:.3g}; a measured SP is better.",
+            f"({tex.sp_text}): factor {f:.3g}; a measured SP is better.",
             "spread of the Slavich and Petterson factor over the texture's SP range "
             f"({tex.sp_low_pct:g}-{tex.sp_high_pct:g} %); the paper states no error and "
             "warns it can be significant in sandy soils", tex.sp_pct), reg
@@ -103,14 +102,19 @@ def _texture_route(ec, n, tex: Texture) -> tuple[_Route, Regression | None]:
         return _Route(ece_regression(ec, hh.name), f"regression:{hh.name}", unc,
                       f"Estimated with {hh.label}, chosen for {tex.name} "
                       f"({HOGG_HENRY_GROUP[tex.name]} texture).", basis, tex.sp_pct), hh
+    return class_sp_dilution(ec, n, tex,
+                             f"; no published texture relation is stored for 1:{n:g}"), None
+
+
+def class_sp_dilution(ec, n, tex: Texture, why: str = "") -> _Route:
+    """Ideal dilution with the texture's typical SP: asked for by name, or
+    where no published texture relation is stored for the ratio (``why``)."""
     return _Route(ece_sp_dilution(ec, n, tex.sp_pct), f"sp_dilution:texture:{tex.name}",
                   SP_DILUTION_UNCERTAINTY_PCT,
                   f"Dilution estimate from 1:{n:g} with the typical SP of {tex.name} "
-                  f"({tex.sp_pct:g} %, range {tex.sp_low_pct:g}-{tex.sp_high_pct:g} %; "
-                  f"{tex.sp_status}); no published texture relation is stored for "
-                  f"1:{n:g}; a measured SP is better.",
+                  f"({tex.sp_text}){why}; a measured SP is better.",
                   SP_DILUTION_UNCERTAINTY_SOURCE + "; SP from texture adds more",
-                  tex.sp_pct), None
+                  tex.sp_pct)
 
 
 def _below_range_route(ec, n, reg: Regression, sp, tex) -> _Route:

@@ -22,6 +22,13 @@ class Texture:
     verified: str = "unverified"
 
     @property
+    def sp_text(self) -> str:
+        """The class SP as a note quotes it: value, range and how far it is
+        checked (``39 %, range 30-45 %; class SP not checked ...``)."""
+        return (f"{self.sp_pct:g} %, range {self.sp_low_pct:g}-{self.sp_high_pct:g} %; "
+                f"{self.sp_status}")
+
+    @property
     def sp_status(self) -> str:
         """How far the class SP is checked, in words for a note on a screen:
         every note that uses the class SP carries it, so a value nobody has
