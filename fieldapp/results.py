@@ -88,9 +88,10 @@ TDS_ESTIMATE_LABEL = ("TDS estimated from EC at 25 °C by USDA Handbook 60 "
                       "(640 mg/L per dS/m); an estimate, not a measurement")
 
 
-def tds_block(kw: dict, row: dict, estimate: float | None = None) -> dict:
+def tds_block(kw: dict, row: dict, estimate: float | None) -> dict:
     """The two TDS figures, each labelled: what a TDS meter displayed (with its
-    factor), and the Handbook 60 estimate from EC25. Never two bare numbers."""
+    factor), and the Handbook 60 estimate from EC25 (``estimate``, the result's
+    rounded ``tds_mg_L``). Never two bare numbers."""
     meter = None
     if row.get("unit_kind") == "tds":
         f = kw.get("tds_factor")
@@ -98,7 +99,7 @@ def tds_block(kw: dict, row: dict, estimate: float | None = None) -> dict:
                  "label": f"TDS as the meter displayed it ({kw['value']:g} "
                           f"{row['unit_canonical']}, meter factor {f:g} mg/L per µS/cm)"}
     return {"meter": meter,
-            "estimate_mg_L": round_sig(row["tds_mg_L"], 4) if estimate is None else estimate,
+            "estimate_mg_L": estimate,
             "estimate_method": "tds_estimate_handbook60",
             "estimate_label": TDS_ESTIMATE_LABEL}
 
@@ -110,6 +111,7 @@ def result_for_row(out: dict, i: int, kw: dict, rounded: RoundedColumns | None =
     row = {k: v[i] for k, v in out.items() if k != "flags"}
     row["flags"] = out["flags"].for_row(i)
     crop = row["crop"]
+    tds = R("tds_mg_L", i, 4)
     result = {
         "input": {
             "value": kw["value"], "unit": kw["unit"], "sample": kw["sample"],
@@ -138,8 +140,8 @@ def result_for_row(out: dict, i: int, kw: dict, rounded: RoundedColumns | None =
         "psi_s_by_method": {k: R(f"psi_s_{k}_MPa", i, 4)
                             for k in (*osmotic.PSI_S_ROUTES, osmotic.SEAWATER_ROUTE)},
         "salinity_pss78": R("salinity_pss78", i, 4),
-        "tds_mg_L": R("tds_mg_L", i, 4),
-        "tds": tds_block(kw, row, R("tds_mg_L", i, 4)),
+        "tds_mg_L": tds,
+        "tds": tds_block(kw, row, tds),
         "cations_meq_L": R("cations_meq_L", i, 4),
         "soil_solution": None,
         "soil_class": row["soil_class"],

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from ..csvtext import QUOTE_OR_BREAK_RE as _QUOTE_OR_BREAK_RE, csv_quoted
+from ..csvtext import QUOTE_OR_BREAK_RE, csv_quoted
 from ..fmt import number
 
 
@@ -64,21 +64,17 @@ def _write_json(dst, in_cols, in_columns, out, out_cols, n):
         dst.write(json.dumps(rec, ensure_ascii=False) + "\n")
 
 
-#: The quoting csv.writer does, one column at a time (shared with the export).
-_csv_cells = csv_quoted
-
-
 def _computed_cells(out: dict, out_cols) -> list[list[str]]:
     """The computed columns as CSV cells, quoted as csv.writer would (a
     number, digits with a sign and a point, never needs quotes)."""
     cells = []
     for c in out_cols:
         if c == "flags":
-            cells.append(_csv_cells(out[c].codes_column().tolist()))
+            cells.append(csv_quoted(out[c].codes_column().tolist()))
         elif out[c].dtype.kind == "f":
             cells.append(_format_column(out[c]))
         else:
-            cells.append(_csv_cells(_format_column(out[c])))
+            cells.append(csv_quoted(_format_column(out[c])))
     return cells
 
 
@@ -112,7 +108,7 @@ def row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
         if texts is not None:
             blob = ",".join(texts)
             if blob.count(",") == len(texts) * len(in_cols) - 1 \
-                    and not _QUOTE_OR_BREAK_RE.search(blob):
+                    and not QUOTE_OR_BREAK_RE.search(blob):
                 return texts
     by_pos = list(zip(*chunk))      # a repeated name writes its last column's cells, as before
-    return list(map(",".join, zip(*(_csv_cells(by_pos[pos[c]]) for c in in_cols))))
+    return list(map(",".join, zip(*(csv_quoted(by_pos[pos[c]]) for c in in_cols))))

@@ -30,7 +30,7 @@ def export_lines(conn, site_id: int | None = None, rows_per_piece: int = 1000,
         acked = store.acked_reading_ids(conn)
     except sqlite3.DatabaseError:           # a damaged log: export the readings anyway
         acked = set()
-    select = store.export_select(store.dialect(conn))
+    select = store.export_select()
     shape = conn.execute(select + " LIMIT 0")
     names = getattr(shape, "names", None) or [d[0] for d in shape.description]
     columns = _Columns(conn, acked, names)

@@ -191,14 +191,14 @@ def _level(ec: float, ranges) -> tuple[str | None, str]:
     return None, ""
 
 
-def _substrate_source(ranges) -> str:
+def _substrate_source(ranges, checked: bool) -> str:
     """The citation a screen shows for a method's ranges: the table's short
     citation (``cite`` column; else the shortest row source, the table's own
     citation without a row's extra remark), marked unverified unless every row
-    was checked against its published table."""
+    was ``checked`` against its published table."""
     text = (next((g.cite for g in ranges if g.cite), "")
             or min((g.source for g in ranges), key=len))
-    if any(g.verified != "yes" for g in ranges) and "unverified" not in text.lower():
+    if not checked and "unverified" not in text.lower():
         text += " (unverified)"
     return text + "; " + SUBSTRATE_LEVELS_SOURCE
 
@@ -215,6 +215,7 @@ def substrate_tests(cur: list[Mapping], targets: Mapping[str, Mapping] | None = 
         r = rs[-1]
         ec = _ec25(r)
         ranges = extracts.substrate_ranges(method)
+        checked = all(g.verified == "yes" for g in ranges)
         note = ""
         level = None
         if kind == "media":
@@ -235,9 +236,8 @@ def substrate_tests(cur: list[Mapping], targets: Mapping[str, Mapping] | None = 
             "ranges": [{"level": g.level, "label": SUBSTRATE_LEVELS.get(g.level, (g.level,))[0],
                         "lo_dS_m": g.lo_dS_m, "hi_dS_m": None if math.isinf(g.hi_dS_m) else g.hi_dS_m}
                        for g in ranges],
-            "source": _substrate_source(ranges),
-            "source_status": ("read" if all(g.verified == "yes" for g in ranges)
-                              else "unverified"),
+            "source": _substrate_source(ranges, checked),
+            "source_status": "read" if checked else "unverified",
             "target": compare_to_target(ec, targets.get(kind)),
             "flags": [f["code"] for f in _flags(r)],
         })

@@ -44,10 +44,10 @@ _EXPORT_OWN = ("id", "uuid", "sample", "depth_cm", "value", "unit", "temp_c", "c
                "ece_dS_m", "ece_method", "psi_s_MPa", "psi_s_method", "flags", "app_version")
 
 
-def export_select(dialect: str = "sqlite") -> str:
+def export_select() -> str:
     """:data:`_READING_SELECT` narrowed to what the CSV export writes; its
     ``salt_type`` is never NULL ('' for mixed salts or not said). The same
-    SQL on both backends (``dialect`` kept for callers)."""
+    SQL on both backends."""
     own = ", ".join("r." + c for c in _EXPORT_OWN)
     return _READING_SELECT.replace(
         "SELECT r.*, s.name AS site, st.status, st.void_reason, st.corrected_by_uuid,",
