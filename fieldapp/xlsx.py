@@ -164,12 +164,13 @@ def _method_source(key: str) -> str:
     return "unverified"
 
 
-def _checked(source: str, verified: str | None = None) -> str:
-    if verified is not None:
-        v = (verified or "").strip().lower()
+def _checked(source: str, check: str | None = None) -> str:
+    """A Sources row's status: from ``check`` where the table states one
+    (:attr:`Texture.check`), else from the words of its source."""
+    if check is not None:
         return {"yes": "checked against the published table",
                 "derived": "derived from a published table by a stated rule; not read in a "
-                           "published table of its own, so unverified"}.get(v, "unverified")
+                           "published table of its own, so unverified"}.get(check, "unverified")
     low = source.lower()
     if "from memory" in low or "unverified" in low:
         return "unverified"
@@ -279,7 +280,7 @@ def _write_sources(sheet: _Writer, methods: dict[str, str], crops: set[str],
             continue
         sheet.append(["Texture: typical saturation percentage", t.name,
                       f"SP {t.sp_pct:g} % (range {t.sp_low_pct:g}-{t.sp_high_pct:g} %)",
-                      labels.readable_source(t.source), _checked(t.source, t.verified)])
+                      labels.readable_source(t.source), _checked(t.source, t.check)])
     sheet.append(["", "", "", "", ""])
     for text in CAUTIONS:
         sheet.append(["Caution", "", text, "", ""])

@@ -388,6 +388,23 @@ def test_a_note_using_the_class_sp_says_how_far_it_is_checked(ratio, texture):
             assert "2 × field capacity" in est.note
 
 
+def test_a_class_sp_reads_as_checked_only_where_its_table_says_so():
+    # The note on screen and the workbook's Sources sheet both read
+    # Texture.check, so a word in textures.csv's verified column other than
+    # "yes" or "derived" (a typo, "maybe") must read as unverified in both.
+    import dataclasses
+    from fieldapp import xlsx
+    loam = ex.find_texture("loam")
+    states = {}
+    for word in ("yes", " Yes ", "derived", "maybe", "", None):
+        tex = dataclasses.replace(loam, verified=word)
+        states[word] = (tex.check, "unverified" in tex.sp_status,
+                        "unverified" in xlsx._checked(tex.source, tex.check))
+    assert states["yes"] == states[" Yes "] == ("yes", False, False)
+    assert states["derived"] == ("derived", True, True)
+    assert states["maybe"] == states[""] == states[None] == ("unverified", True, True)
+
+
 def test_texture_only_1to5_no_longer_uses_ideal_dilution_on_light_soils():
     # The ideal dilution 500/SP ran 40-100 % above the published relation on
     # light soils (sand, SP 18 %: 27.8 against 19.3); loam +26 %.

@@ -29,11 +29,18 @@ class Texture:
                 f"{self.sp_status}")
 
     @property
+    def check(self) -> str:
+        """How far the class SP is checked: "yes", "derived" or "unverified"
+        (anything else the data file says reads as unverified)."""
+        v = (self.verified or "").strip().lower()
+        return v if v in ("yes", "derived") else "unverified"
+
+    @property
     def sp_status(self) -> str:
         """How far the class SP is checked, in words for a note on a screen:
         every note that uses the class SP carries it, so a value nobody has
         read in a published SP table never reaches a screen unmarked."""
-        v = (self.verified or "").strip().lower()
+        v = self.check
         if v == "yes":
             return "class SP checked against its published table"
         if v == "derived":
