@@ -14,6 +14,7 @@ import numpy as np
 
 from .. import forms
 from ..science import InputError, convert, extracts
+from ..science.coded import coded
 
 
 class RowError(InputError):
@@ -98,18 +99,21 @@ def _empty(line: int):
 
 def _word_column(col, parse, first_line: int, field: str) -> np.ndarray:
     """A column of words, each distinct text parsed once (``parse`` may raise
-    InputError: the first line holding that text is named)."""
-    memo = {}
-    for text in set(col):
+    InputError: the first line holding that text is named); the column keeps
+    each row's code (:func:`fieldapp.science.coded.coded`)."""
+    index = dict.fromkeys(col)
+    values, bad = [], []
+    for i, text in enumerate(index):
+        index[text] = i
         try:
-            memo[text] = parse(text)
+            values.append(parse(text))
         except InputError as e:
             line = first_line + col.index(text)
-            memo[text] = RowError(f"line {line}: {e.message}", field, line)
-    bad = [e for e in memo.values() if isinstance(e, RowError)]
+            bad.append(RowError(f"line {line}: {e.message}", field, line))
     if bad:
         raise min(bad, key=lambda e: e.line)
-    return np.fromiter(map(memo.__getitem__, col), dtype=object, count=len(col))
+    return coded(values, np.fromiter(map(index.__getitem__, col), dtype=np.intp,
+                                     count=len(col)))
 
 
 def _strip(text) -> str:

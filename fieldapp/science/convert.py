@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import InputError, checks, extracts, osmotic, temperature, tolerance, units
+from .coded import codes_of
 
 #: Sample kinds whose own solution is what the plant roots see (or its nearest proxy).
 _SOLUTION_KINDS = {"water", "feed", "leachate", "drain", "sme"}
@@ -62,7 +63,7 @@ class Batch:
 def _col(x, n, dtype, default):
     if x is None:
         return np.full(n, default, dtype=dtype)
-    arr = np.asarray(x, dtype=dtype)
+    arr = np.asanyarray(x, dtype=dtype) if dtype is object else np.asarray(x, dtype=dtype)
     if arr.ndim == 0:
         return np.full(n, arr.item() if dtype is not object else x, dtype=dtype)
     if arr.shape[0] != n:
@@ -130,6 +131,9 @@ def _context(ctx: dict, n: int) -> dict:
 def _codes(col: np.ndarray) -> tuple[np.ndarray, list]:
     """Integer codes for a column (NaN and None are one value) and the value of each code."""
     n = col.shape[0]
+    known = codes_of(col)
+    if known is not None:
+        return known
     if col.dtype == object:
         first = col[0]
         if bool(np.all(col == first)):   # elementwise on object arrays, None included

@@ -36,7 +36,7 @@ def _per_kind(out, table):
     """Each row's (low, high) from ``table`` by its sample kind (NaN for a
     kind the table lacks), looked up once per distinct kind."""
     from ..convert import _codes        # convert imports checks
-    kinds = np.asarray(out["sample"], dtype=object)
+    kinds = np.asanyarray(out["sample"], dtype=object)
     if not len(kinds):
         return np.full(0, np.nan), np.full(0, np.nan)
     codes, values = _codes(kinds)
