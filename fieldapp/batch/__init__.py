@@ -134,7 +134,7 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
         except InputError:
             pass
         else:
-            return lines.csv_text_repeated(heads, out, out_cols, codes)
+            return lines.csv_text(heads, out, out_cols, codes)
     return lines.csv_text(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
 
 

@@ -12,6 +12,7 @@ import numpy as np
 
 from ..csvtext import QUOTE_OR_BREAK_RE, csv_quoted
 from ..fmt import number
+from . import assemble
 
 
 def format_number(x) -> str:
@@ -78,22 +79,39 @@ def _computed_cells(out: dict, out_cols) -> list[list[str]]:
     return cells
 
 
-def csv_text(heads: list, out, out_cols) -> str:
+def _computed_matrices(out: dict, out_cols) -> list:
+    """The computed columns as byte matrices (:mod:`.assemble`), the cells
+    those of :func:`_computed_cells`."""
+    mats = []
+    for c in out_cols:
+        if c == "flags":
+            mats.append(assemble.text_matrix(out[c].codes_column().tolist()))
+        elif out[c].dtype.kind == "f":
+            mats.append(assemble.number_matrix(out[c]))
+        elif out[c].dtype == bool:
+            mats.append(assemble.text_matrix(out[c], lambda v: "yes" if v else "no"))
+        else:
+            mats.append(assemble.text_matrix(out[c]))
+    return mats
+
+
+def csv_text(heads: list, out, out_cols, codes: list | None = None) -> str:
     """The chunk's rows as CSV lines (``heads``: each row's input cells, from
-    :func:`row_texts`), the computed cells made a column at a time: the same
-    text csv.writer writes row by row, at a fraction of the cost per cell."""
-    return "\r\n".join(map(",".join, zip(heads, *_computed_cells(out, out_cols)))) + "\r\n"
-
-
-def csv_text_repeated(heads: list, out, out_cols, codes: list) -> str:
-    """The chunk's rows as CSV lines when ``out`` holds the results of its
-    distinct readings only (``codes[i]``: the one row ``i`` repeats): the
-    computed cells of each distinct reading are joined once and appended to
-    the text of every row that repeats it."""
+    :func:`row_texts`): the same text csv.writer writes row by row, the
+    computed cells made a column at a time and the lines assembled as bytes
+    (:mod:`.assemble`). Where ``out`` holds the results of the chunk's
+    distinct readings only, ``codes[i]`` is the one row ``i`` repeats: each
+    distinct reading's cells are made once."""
     if not out_cols:
         return "\r\n".join(heads) + "\r\n"
-    tails = ["," + t for t in map(",".join, zip(*_computed_cells(out, out_cols)))]
-    return "\r\n".join(map(str.__add__, heads, map(tails.__getitem__, codes))) + "\r\n"
+    text = assemble.lines_text(heads, _computed_matrices(out, out_cols), codes)
+    if text is not None:
+        return text
+    cells = _computed_cells(out, out_cols)     # a head holds a line break: joined as text
+    rows = list(map(",".join, zip(*cells)))
+    if codes is not None:
+        rows = list(map(rows.__getitem__, codes))
+    return "\r\n".join(map(",".join, zip(heads, rows))) + "\r\n"
 
 
 def row_texts(chunk: list, in_cols, pos: dict) -> list[str]:

@@ -1,0 +1,103 @@
+"""convert-csv makes its lines as bytes a chunk at a time (batch.assemble).
+The references are Python's own: ``%`` and the one formatter for every
+number cell, csv.writer writing row by row for every line."""
+from __future__ import annotations
+
+import csv
+import io
+
+import numpy as np
+import pytest
+
+from fieldapp import batch
+from fieldapp.batch import assemble
+
+from test_batch_repeats import HEADER, _reference
+
+
+def _cells(matrix) -> list[str]:
+    return [bytes(r[r != 0]).decode("utf-8") for r in matrix]
+
+
+def _awkward_numbers() -> np.ndarray:
+    rng = np.random.default_rng(12)
+    spread = rng.lognormal(0, 4, 60_000) * rng.choice([-1, 1], 60_000)
+    short = np.array([round(x, int(k)) for x, k in
+                      zip(rng.uniform(0, 1000, 20_000), rng.integers(0, 7, 20_000))])
+    tens = 10.0 ** np.arange(-7, 9)
+    ties = np.array([0.5, 1.5, 2.5, 123456.5, 99999.95, 9.999995, 0.1234565, 0.00012345650])
+    edges = np.array([0.0, -0.0, np.nan, np.inf, -np.inf, 1e-4, -1e-4, 999_999, 999_998.6,
+                      999_999.4, 1e30, -1e-30, 5e-324, 1.7976931348623157e308])
+    return np.concatenate([spread, short, -short / 1000, tens, np.nextafter(tens, 0),
+                           np.nextafter(tens, np.inf), ties, np.nextafter(ties, 0),
+                           np.nextafter(ties, 9e9), edges])
+
+
+def test_number_cells_are_the_one_formatters_text():
+    """Reference: fieldapp.fmt.number(x, 6, missing="") (``%.6g`` where that
+    is plain decimals) of each number, rounding ties, powers of ten and
+    their neighbours, zero, NaN, infinities and the extremes of a double."""
+    a = _awkward_numbers()
+    got = _cells(assemble.number_matrix(a))
+    want = [batch.format_number(x) for x in a.tolist()]
+    wrong = [(x, g, w) for x, g, w in zip(a.tolist(), got, want) if g != w]
+    assert not wrong, wrong[:5]
+
+
+def test_text_cells_are_quoted_as_csv_writer_quotes_them():
+    values = np.array(["a", None, 'say "hi"', "1,5", "a", "µS/cm", "line\nbreak"], dtype=object)
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow(["" if v is None else v for v in values])
+    assert ",".join(_cells(assemble.text_matrix(values))) + "\n" == buf.getvalue()
+
+
+def _distinct_rows(n: int) -> list[list[str]]:
+    """Invented readings, every row a different value, the site cells
+    holding what a CSV cell may: commas, quotes, letters beyond ASCII."""
+    sites = ["Farm A", "Block 3, north", 'the "old" bed', "Bench 4 µ", "Farm B ü"]
+    units = ["dS/m", "µS/cm", "mS/cm"]
+    samples = [("paste", ""), ("extract", "1:5"), ("feed", ""), ("water", "")]
+    rows = []
+    for i in range(n):
+        kind, ratio = samples[i % 4]
+        rows.append([sites[i % 5], f"{0.2 + i * 0.0137:.4f}", units[i % 3], kind, ratio,
+                     f"{15 + i % 20}", "yes" if i % 2 else "no", "barley" if i % 7 == 0
+                     else "", "loam" if kind == "extract" else ""])
+    return rows
+
+
+def _converted(rows, chunk_rows=50_000) -> str:
+    src = io.StringIO()
+    csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
+    src.seek(0)
+    dst = io.StringIO()
+    assert batch.convert_csv(src, dst, chunk_rows=chunk_rows) == len(rows)
+    return dst.getvalue()
+
+
+@pytest.mark.parametrize("chunk_rows", [37, 50_000])
+def test_lines_of_different_readings_are_csv_writers(chunk_rows):
+    rows = _distinct_rows(400)
+    assert _converted(rows, chunk_rows) == _reference(rows)
+
+
+@pytest.mark.parametrize("odd", ["a line\nbreak", "a NUL \0 inside", "x" * 5000],
+                         ids=["line break", "NUL", "one long cell"])
+def test_an_odd_head_gives_the_same_lines(odd):
+    """A quoted line break (the heads then encoded a row at a time), a NUL
+    (it would be dropped with the padding) and one cell far longer than the
+    rest (the padding would cost more than the text; these two send their
+    chunk the text way): the same lines either way."""
+    rows = _distinct_rows(120)
+    rows[77][0] = odd
+    assert _converted(rows) == _reference(rows)
+
+
+def test_a_text_cell_with_a_nul_is_left_to_the_text_way():
+    """A NUL of a cell's own would be dropped with the padding: the column
+    gives no matrix and the lines are not made as bytes."""
+    assert assemble.text_matrix(np.array(["a", "b\0c"], dtype=object)) is None
+    cols = [assemble.text_matrix(np.array(["a", "b\0c"], dtype=object))]
+    assert assemble.lines_text(["1", "2"], cols) is None
+    good = [assemble.text_matrix(np.array(["a", "b"], dtype=object))]
+    assert assemble.lines_text(["1", "2"], good) == "1,a\r\n2,b\r\n"
