@@ -101,3 +101,59 @@ def test_a_text_cell_with_a_nul_is_left_to_the_text_way():
     assert assemble.lines_text(["1", "2"], cols) is None
     good = [assemble.text_matrix(np.array(["a", "b"], dtype=object))]
     assert assemble.lines_text(["1", "2"], good) == "1,a\r\n2,b\r\n"
+
+
+def _rows_in_contexts(n: int) -> list[list[str]]:
+    """Every row a different value, the rest of the row one of the six
+    invented readings of test_batch_repeats (so few contexts, many rows each)."""
+    from test_batch_repeats import READINGS
+    return [r[:1] + [f"{float(r[1]) * (1 + i * 1e-7):.7g}"] + r[2:]
+            for i, r in ((i, READINGS[i % len(READINGS)]) for i in range(n))]
+
+
+def test_different_values_in_few_contexts_read_each_context_once(monkeypatch):
+    """The context route runs (a spy counts it) and its lines are those of
+    every row converted on its own (test_batch_repeats._reference)."""
+    rows = _rows_in_contexts(600)
+    calls = []
+    real = batch.columns_to_batch_in_contexts
+    monkeypatch.setattr(batch, "columns_to_batch_in_contexts",
+                        lambda *a: calls.append(len(a[2])) or real(*a))
+    assert _converted(rows) == _reference(rows)
+    assert calls == [600]
+
+
+def test_a_bad_context_cell_names_its_own_line():
+    """A unit no meter shows on one row of a chunk read by contexts: the
+    chunk is read the usual way and the message names that row's line."""
+    rows = _rows_in_contexts(600)
+    rows[433][2] = "furlongs"
+    src = io.StringIO()
+    csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
+    src.seek(0)
+    with pytest.raises(batch.RowError) as e:
+        batch.convert_csv(src, io.StringIO())
+    assert e.value.line == 435 and "line 435" in e.value.message
+
+
+@pytest.mark.parametrize("kinds", [1, 3, 40, 5000])
+def test_groups_are_the_rows_sharing_every_key(kinds):
+    """convert._groups (table-compacted keys, a radix sort where they are
+    small) against a dict of key tuples: the same partition of the rows,
+    NaN and None each one key, a coded column the same as a plain one."""
+    from fieldapp.science import convert
+    from fieldapp.science.coded import coded_table
+    rng = np.random.default_rng(kinds)
+    n = 20_000
+    a = rng.integers(0, kinds, n).astype(float)
+    a[rng.random(n) < 0.1] = np.nan
+    words = np.array(["x", "y", None, "z"], dtype=object)[rng.integers(0, 4, n)]
+    b = rng.integers(0, 7, n) * 0.5
+    ctx = rng.integers(0, 50, n)
+    b_coded = coded_table(b[:50], ctx)
+    want: dict = {}
+    for i, key in enumerate(zip(a.tolist(), words.tolist(), b_coded.tolist())):
+        want.setdefault(tuple("nan" if k != k else k for k in key), []).append(i)
+    got = {tuple("nan" if k != k else k for k in key): rows.tolist()
+           for key, rows in convert._groups(a, words, b_coded)}
+    assert got == want

@@ -16,8 +16,10 @@ from itertools import islice
 from operator import itemgetter
 from typing import Iterable, Iterator, TextIO
 
+import numpy as np
+
 from ..science import InputError, convert
-from .cells import RowError, columns_to_batch
+from .cells import RowError, columns_to_batch, columns_to_batch_in_contexts
 from . import lines
 from .lines import _write_json, format_number
 
@@ -135,7 +137,47 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
             pass
         else:
             return lines.csv_text(heads, out, out_cols, codes)
+    else:
+        out = _in_contexts(chunk, pos, names, line)
+        if out is not None:
+            return lines.csv_text(heads, out, out_cols)
     return lines.csv_text(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
+
+
+def _in_contexts(chunk: list, pos: dict, names: list, line: int) -> dict | None:
+    """The chunk converted where its readings all differ but few contexts
+    (unit, sample, ratio, temperature... every input column but the value)
+    are shared by many rows: each context's cells are read once and given to
+    all its rows with their codes (:func:`cells.columns_to_batch_in_contexts`),
+    the values read as one column. None where the contexts are too many, or
+    any cell is refused: the usual way then names the first bad line."""
+    n = len(chunk)
+    others = [c for c in names if c != "value"]
+    if not others:
+        return None
+    found = _distinct(chunk, [pos[c] for c in others], n // 8)
+    if found is None:
+        return None
+    rows, codes = found
+    try:
+        return convert.convert_batch(columns_to_batch_in_contexts(
+            [r[pos["value"]] for r in chunk], dict(zip(others, zip(*rows))), codes, line))
+    except InputError:
+        return None
+
+
+def _distinct(chunk: list, positions: list, most: int) -> tuple[list, np.ndarray] | None:
+    """(the distinct tuples of the cells at ``positions``; each row's index
+    among them), or None where there are more than ``most``."""
+    key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
+    first: dict = {}                    # each key -> the row it first appears on
+    seen = np.fromiter(map(first.setdefault, map(key, chunk), range(len(chunk))),
+                       dtype=np.intp, count=len(chunk))
+    if len(first) > most:
+        return None
+    dense = np.empty(len(chunk), dtype=np.intp)
+    dense[np.fromiter(first.values(), dtype=np.intp, count=len(first))] = np.arange(len(first))
+    return list(first), dense[seen]
 
 
 def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, list] | None:

@@ -7,6 +7,7 @@ distinct word; a bad cell raises :class:`RowError` naming its line.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 
@@ -14,7 +15,7 @@ import numpy as np
 
 from .. import forms
 from ..science import InputError, convert, extracts
-from ..science.coded import coded
+from ..science.coded import coded, coded_table
 
 
 class RowError(InputError):
@@ -204,3 +205,22 @@ def columns_to_batch(columns: dict, n: int, first_line: int) -> convert.Batch:
                               matric_MPa=nums["matric_MPa"], ece_method=method, crop=crop,
                               salt_type=nums["salt_type"])
 
+
+
+def columns_to_batch_in_contexts(values: list, contexts: dict, codes: np.ndarray,
+                                 first_line: int):
+    """A Batch of readings whose other cells repeat: ``values`` (the value
+    cell of every row), ``contexts`` (the other input columns, one cell per
+    distinct context) and ``codes`` (each row's context). Each context is
+    read once; its parsed cells go to every row with their codes
+    (:func:`fieldapp.science.coded.coded_table`), so the conversion finds its
+    groups from integers. A refused context cell raises with a line that
+    need not be its own: the caller then reads the chunk the usual way."""
+    k = len(next(iter(contexts.values())))
+    ctx = columns_to_batch({**contexts, "value": ["0"] * k}, k, first_line)
+    value = _number_column(values, first_line, "value", required=True)
+    _first_bad(value < 0, first_line, "EC cannot be negative.", "value")
+    fields = {f.name: getattr(ctx, f.name) for f in dataclasses.fields(ctx)
+              if f.name not in ("value", "context")}
+    return convert.make_batch(value=value, **{
+        name: None if col is None else coded_table(col, codes) for name, col in fields.items()})

@@ -42,6 +42,24 @@ def coded(values: list, codes: np.ndarray) -> np.ndarray:
     return col
 
 
+def coded_table(table: np.ndarray, codes: np.ndarray) -> np.ndarray:
+    """The column ``table[codes[i]]`` with its codes kept, for a table of
+    any dtype (the distinct rows' parsed cells, expanded to every row).
+    Equal entries of ``table`` are merged into one code; NaNs are one value,
+    as :func:`fieldapp.science.convert._codes` counts them."""
+    table = np.asarray(table)
+    if table.dtype == object:
+        return coded(table.tolist(), codes)
+    uniq, inverse = np.unique(table, return_inverse=True)
+    codes = inverse.ravel().astype(np.intp)[codes]
+    col = uniq[codes].view(CodedColumn)
+    col.codes = codes
+    col.values = uniq.tolist()
+    col.flags.writeable = False
+    codes.flags.writeable = False
+    return col
+
+
 def codes_of(col) -> tuple[np.ndarray, list] | None:
     """(codes, values) of a column made by :func:`coded`, else None."""
     codes = getattr(col, "codes", None)

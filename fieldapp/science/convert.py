@@ -63,7 +63,7 @@ class Batch:
 def _col(x, n, dtype, default):
     if x is None:
         return np.full(n, default, dtype=dtype)
-    arr = np.asanyarray(x, dtype=dtype) if dtype is object else np.asarray(x, dtype=dtype)
+    arr = np.asanyarray(x, dtype=dtype)       # a coded column keeps its codes
     if arr.ndim == 0:
         return np.full(n, arr.item() if dtype is not object else x, dtype=dtype)
     if arr.shape[0] != n:
@@ -153,6 +153,17 @@ def _codes(col: np.ndarray) -> tuple[np.ndarray, list]:
     return codes.astype(np.intp).ravel(), values
 
 
+def _compact(keys: np.ndarray, size: int) -> np.ndarray:
+    """Integer keys in 0..size-1 renumbered 0..k-1 in their order (the
+    inverse of np.unique), by a table where the range is small."""
+    if size > 4 * len(keys) + 1024:
+        _, inverse = np.unique(keys, return_inverse=True)
+        return inverse.ravel().astype(np.int64)
+    present = np.zeros(size, dtype=bool)
+    present[keys] = True
+    return (np.cumsum(present) - 1)[keys]
+
+
 def _groups(*cols):
     """Yield (key tuple, row index array) for each distinct combination of columns.
 
@@ -168,13 +179,13 @@ def _groups(*cols):
         codes, vals = _codes(col)
         values.append(vals)
         code_arrays.append(codes)
-        combined = combined * len(vals) + codes
         if len(vals) > 1:
-            _, combined = np.unique(combined, return_inverse=True)
-            combined = combined.ravel().astype(np.int64)
+            combined = _compact(combined * len(vals) + codes, (int(combined.max()) + 1) * len(vals))
     if int(combined.max()) == 0:
         yield tuple(v[0] for v in values), np.arange(len(cols[0]), dtype=np.intp)
         return
+    if combined.max() < 2 ** 15:        # a stable sort of 16-bit integers is a radix sort
+        combined = combined.astype(np.int16)
     order = np.argsort(combined, kind="stable")
     bounds = np.flatnonzero(np.diff(combined[order])) + 1
     for rows in np.split(order, bounds):
