@@ -12,7 +12,7 @@ import pytest
 from fieldapp import batch
 from fieldapp.batch import assemble
 
-from test_batch_repeats import HEADER, _reference
+from test_batch_repeats import HEADER, _reference, assert_refused_at
 
 
 def _cells(matrix) -> list[str]:
@@ -128,12 +128,7 @@ def test_a_bad_context_cell_names_its_own_line():
     chunk is read the usual way and the message names that row's line."""
     rows = _rows_in_contexts(600)
     rows[433][2] = "furlongs"
-    src = io.StringIO()
-    csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
-    src.seek(0)
-    with pytest.raises(batch.RowError) as e:
-        batch.convert_csv(src, io.StringIO())
-    assert e.value.line == 435 and "line 435" in e.value.message
+    assert_refused_at(rows, 435)
 
 
 @pytest.mark.parametrize("kinds", [1, 3, 40, 5000])

@@ -72,9 +72,14 @@ def test_a_bad_cell_among_repeats_names_its_own_line():
     rows = _rows(200)
     rows[150] = ["Farm A", "1,2,3", "dS/m", "paste", "", "", "yes", "", ""]
     rows[170] = ["Farm A", "1.5", "dS/m", "swamp", "", "", "yes", "", ""]
+    assert_refused_at(rows, 152)
+
+
+def assert_refused_at(rows, line: int):
+    """convert-csv of ``rows`` refuses the file naming ``line``."""
     src = io.StringIO()
     csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
     src.seek(0)
     with pytest.raises(batch.RowError) as e:
         batch.convert_csv(src, io.StringIO())
-    assert e.value.line == 152 and "line 152" in e.value.message
+    assert e.value.line == line and f"line {line}" in e.value.message
