@@ -111,10 +111,16 @@ def _rows_in_contexts(n: int) -> list[list[str]]:
             for i, r in ((i, READINGS[i % len(READINGS)]) for i in range(n))]
 
 
-def test_different_values_in_few_contexts_read_each_context_once(monkeypatch):
+@pytest.mark.parametrize("temps", ["repeated", "each row its own"])
+def test_different_values_in_few_contexts_read_each_context_once(monkeypatch, temps):
     """The context route runs (a spy counts it) and its lines are those of
-    every row converted on its own (test_batch_repeats._reference)."""
+    every row converted on its own (test_batch_repeats._reference), the
+    temperatures a few repeated or each row's own (a number column is read
+    whole, not as part of the context)."""
     rows = _rows_in_contexts(600)
+    if temps != "repeated":
+        for i, r in enumerate(rows):
+            r[5] = f"{12 + (i % 397) * 0.1:.1f}"
     calls = []
     real = batch.columns_to_batch_in_contexts
     monkeypatch.setattr(batch, "columns_to_batch_in_contexts",
@@ -123,11 +129,14 @@ def test_different_values_in_few_contexts_read_each_context_once(monkeypatch):
     assert calls == [600]
 
 
-def test_a_bad_context_cell_names_its_own_line():
-    """A unit no meter shows on one row of a chunk read by contexts: the
-    chunk is read the usual way and the message names that row's line."""
+@pytest.mark.parametrize("col, cell", [(2, "furlongs"), (5, "70"), (1, "-1"), (1, "1,2,3")],
+                         ids=["unit", "temperature", "negative", "not a number"])
+def test_a_bad_context_cell_names_its_own_line(col, cell):
+    """A unit no meter shows, a temperature out of range, a negative or
+    unreadable value on one row of a chunk read by contexts: the chunk is
+    read the usual way and the message names that row's line."""
     rows = _rows_in_contexts(600)
-    rows[433][2] = "furlongs"
+    rows[433][col] = cell
     assert_refused_at(rows, 435)
 
 

@@ -19,7 +19,7 @@ from typing import Iterable, Iterator, TextIO
 import numpy as np
 
 from ..science import InputError, convert
-from .cells import RowError, columns_to_batch, columns_to_batch_in_contexts
+from .cells import CONTEXT_COLUMNS, RowError, columns_to_batch, columns_to_batch_in_contexts
 from . import lines
 from .lines import _write_json, format_number
 
@@ -146,22 +146,22 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
 
 def _in_contexts(chunk: list, pos: dict, names: list, line: int) -> dict | None:
     """The chunk converted where its readings all differ but few contexts
-    (unit, sample, ratio, temperature... every input column but the value)
-    are shared by many rows: each context's cells are read once and given to
-    all its rows with their codes (:func:`cells.columns_to_batch_in_contexts`),
-    the values read as one column. None where the contexts are too many, or
-    any cell is refused: the usual way then names the first bad line."""
+    (the words of a row: unit, sample, ratio, texture, crop...) are shared
+    by many rows: each context's cells are read once and given to all its
+    rows with their codes, the number columns (value, temperature...) read
+    a column at a time (:func:`cells.columns_to_batch_in_contexts`). None
+    where the contexts are too many, or any cell is refused: the usual way
+    then names the first bad line."""
     n = len(chunk)
-    others = [c for c in names if c != "value"]
-    if not others:
-        return None
-    found = _distinct(chunk, [pos[c] for c in others], n // 8)
+    words = [c for c in names if c in CONTEXT_COLUMNS]
+    found = _distinct(chunk, [pos[c] for c in words], n // 8) if words else ([()], None)
     if found is None:
         return None
     rows, codes = found
+    numbers = {c: [r[pos[c]] for r in chunk] for c in names if c not in CONTEXT_COLUMNS}
     try:
         return convert.convert_batch(columns_to_batch_in_contexts(
-            [r[pos["value"]] for r in chunk], dict(zip(others, zip(*rows))), codes, line))
+            numbers, dict(zip(words, zip(*rows))), codes, n, line))
     except InputError:
         return None
 

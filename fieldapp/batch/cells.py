@@ -18,6 +18,12 @@ from ..science import InputError, convert, extracts
 from ..science.coded import coded, coded_table
 
 
+#: The input columns read as words (a context of a reading, shared by
+#: many rows of a file); the rest are numbers.
+CONTEXT_COLUMNS = ("unit", "sample", "ratio", "texture", "crop", "ece_method", "compensated",
+                   "salt_type")
+
+
 class RowError(InputError):
     """An input error located at a line of the file."""
 
@@ -207,20 +213,29 @@ def columns_to_batch(columns: dict, n: int, first_line: int) -> convert.Batch:
 
 
 
-def columns_to_batch_in_contexts(values: list, contexts: dict, codes: np.ndarray,
-                                 first_line: int):
-    """A Batch of readings whose other cells repeat: ``values`` (the value
-    cell of every row), ``contexts`` (the other input columns, one cell per
-    distinct context) and ``codes`` (each row's context). Each context is
-    read once; its parsed cells go to every row with their codes
-    (:func:`fieldapp.science.coded.coded_table`), so the conversion finds its
-    groups from integers. A refused context cell raises with a line that
-    need not be its own: the caller then reads the chunk the usual way."""
-    k = len(next(iter(contexts.values())))
+def columns_to_batch_in_contexts(numbers: dict, contexts: dict, codes: np.ndarray | None,
+                                 n: int, first_line: int):
+    """A Batch of n readings whose words repeat: ``numbers`` (the number
+    columns, value among them, every row's cell), ``contexts`` (the word
+    columns, :data:`CONTEXT_COLUMNS`, one cell per distinct context) and
+    ``codes`` (each row's context; None: one context, or none). Each context
+    is read once; its parsed cells go to every row with their codes
+    (:func:`fieldapp.science.coded.coded_table`), so the conversion finds
+    its groups from integers. A refused cell raises with a line that need
+    not be its own: the caller then reads the chunk the usual way."""
+    k = len(next(iter(contexts.values()))) if contexts else 1
+    codes = np.zeros(n, dtype=np.intp) if codes is None else codes
     ctx = columns_to_batch({**contexts, "value": ["0"] * k}, k, first_line)
-    value = _number_column(values, first_line, "value", required=True)
+    value = _number_column(numbers["value"], first_line, "value", required=True)
     _first_bad(value < 0, first_line, "EC cannot be negative.", "value")
+    full = {name: _number_column(numbers[field], first_line, field)
+            for field, name in _NUMBER_COLUMNS if field in numbers}
+    if "temp_c" in full:
+        t = full["temp_c"]
+        _first_bad((t < -5) | (t > 60), first_line, "temperature must be between −5 and 60 °C.",
+                   "temp_c")
     fields = {f.name: getattr(ctx, f.name) for f in dataclasses.fields(ctx)
               if f.name not in ("value", "context")}
-    return convert.make_batch(value=value, **{
-        name: None if col is None else coded_table(col, codes) for name, col in fields.items()})
+    fields = {name: full[name] if name in full else None if col is None
+              else coded_table(col, codes) for name, col in fields.items()}
+    return convert.make_batch(value=value, **fields)
