@@ -142,11 +142,11 @@ def test_a_bad_context_cell_names_its_own_line(col, cell):
 
 @pytest.mark.parametrize("kinds", [1, 3, 40, 5000])
 def test_groups_are_the_rows_sharing_every_key(kinds):
-    """convert._groups (table-compacted keys, a radix sort where they are
+    """science.groups.groups (table-compacted keys, a radix sort where they are
     small) against a dict of key tuples: the same partition of the rows,
     NaN and None each one key, a coded column the same as a plain one."""
-    from fieldapp.science import convert
     from fieldapp.science.coded import coded_table
+    from fieldapp.science.groups import groups
     rng = np.random.default_rng(kinds)
     n = 20_000
     a = rng.integers(0, kinds, n).astype(float)
@@ -159,5 +159,5 @@ def test_groups_are_the_rows_sharing_every_key(kinds):
     for i, key in enumerate(zip(a.tolist(), words.tolist(), b_coded.tolist())):
         want.setdefault(tuple("nan" if k != k else k for k in key), []).append(i)
     got = {tuple("nan" if k != k else k for k in key): rows.tolist()
-           for key, rows in convert._groups(a, words, b_coded)}
+           for key, rows in groups(a, words, b_coded)}
     assert got == want

@@ -1,4 +1,26 @@
-"""The trend chart: value against time, one series per depth or sample kind."""
+"""The trend chart: value against time, one series per depth or sample kind.
+
+:func:`trend_svg` reads these keys of its ``spec``:
+
+* ``title`` (str), ``y_label`` (str, with its unit)
+* ``series``: list of ``{"name", "points": [{"t", "y", "key", "label",
+  "flagged"}]}``; ``t`` an ISO date or date-time. Each point becomes one
+  ``path.mark`` carrying ``data-key`` (the reading's id).
+* ``bands`` (optional): ``{"lo", "hi" (None = open), "label", "key"}`` in
+  the value's unit, drawn as background.
+* ``lines`` (optional): ``{"y", "label", "key", "dash"}`` horizontal
+  reference lines (a crop's threshold, its 90/75/50 % yield ECe, a target).
+* ``highlight`` (optional): a date drawn as a vertical line ("this visit").
+* ``label_flagged`` (optional): how many flagged points keep a mark with
+  its ``data-key`` and label (the latest, :func:`latest_flagged`); the
+  others are drawn as ring and mark only (``g.flagged-more``), so a long
+  series of unit slips stays a small picture. Default: all of them.
+* ``flagged_picked`` (optional): those latest points as
+  :func:`latest_flagged` gave them for ``label_flagged``, where the caller
+  has picked them already (to list them beside the chart).
+* ``ref`` (optional): prefix of the ids of the chart's ``<defs>``, unique
+  in the page (default ``fm-`` and the spec's ``id``).
+"""
 from __future__ import annotations
 
 import math
@@ -126,30 +148,8 @@ def _series(series, X, Y, labelled=None, ref: str = "f") -> list[str]:
 
 
 def trend_svg(spec: Mapping, width: float = 360.0, plot_height: float = 190.0) -> str:
-    """A trend chart: value against time, one series per depth or sample kind.
-
-    ``spec`` keys:
-
-    * ``title`` (str), ``y_label`` (str, with its unit)
-    * ``series``: list of ``{"name", "points": [{"t", "y", "key", "label",
-      "flagged"}]}``; ``t`` an ISO date or date-time. Each point becomes one
-      ``path.mark`` carrying ``data-key`` (the reading's id).
-    * ``bands`` (optional): ``{"lo", "hi" (None = open), "label", "key"}`` in
-      the value's unit, drawn as background.
-    * ``lines`` (optional): ``{"y", "label", "key", "dash"}`` horizontal
-      reference lines (a crop's threshold, its 90/75/50 % yield ECe, a target).
-    * ``highlight`` (optional): a date drawn as a vertical line ("this visit").
-    * ``label_flagged`` (optional): how many flagged points keep a mark with
-      its ``data-key`` and label (the latest, :func:`latest_flagged`); the
-      others are drawn as ring and mark only (``g.flagged-more``), so a long
-      series of unit slips stays a small picture. Default: all of them.
-    * ``flagged_picked`` (optional): those latest points as
-      :func:`latest_flagged` gave them for ``label_flagged``, where the caller
-      has picked them already (to list them beside the chart).
-    * ``ref`` (optional): prefix of the ids of the chart's ``<defs>``, unique
-      in the page (default ``fm-`` and the spec's ``id``).
-
-    Returns '' when there is no point to draw.
+    """A trend chart of ``spec`` (its keys: the module's docstring). Returns
+    '' when there is no point to draw.
     """
     series = [s for s in spec.get("series", ()) if s.get("points")]
     pts = [(i, p) for i, s in enumerate(series) for p in s["points"]

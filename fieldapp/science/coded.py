@@ -1,7 +1,7 @@
 """An object column that knows its distinct values and each row's code.
 
 The conversion runs each formula once per group of rows that share a unit,
-a sample kind, a texture... (:func:`fieldapp.science.convert._groups`), and
+a sample kind, a texture... (:func:`fieldapp.science.groups.groups`), and
 finding the groups of a column of words costs a dictionary lookup per row.
 Whoever reads the column from text already did that lookup once per row;
 :func:`coded` keeps its result with the column, so the groups are found
@@ -46,7 +46,7 @@ def coded_table(table: np.ndarray, codes: np.ndarray) -> np.ndarray:
     """The column ``table[codes[i]]`` with its codes kept, for a table of
     any dtype (the distinct rows' parsed cells, expanded to every row).
     Equal entries of ``table`` are merged into one code; NaNs are one value,
-    as :func:`fieldapp.science.convert._codes` counts them."""
+    as :func:`fieldapp.science.groups.codes` counts them."""
     table = np.asarray(table)
     if table.dtype == object:
         return coded(table.tolist(), codes)

@@ -35,7 +35,7 @@ def _col(out, key, default=np.nan):
 def _per_kind(out, table):
     """Each row's (low, high) from ``table`` by its sample kind (NaN for a
     kind the table lacks), looked up once per distinct kind."""
-    from ..convert import _codes        # convert imports checks
+    from ..groups import codes as _codes
     kinds = np.asanyarray(out["sample"], dtype=object)
     if not len(kinds):
         return np.full(0, np.nan), np.full(0, np.nan)
