@@ -98,9 +98,32 @@ def test_a_text_cell_with_a_nul_is_left_to_the_text_way():
     gives no matrix and the lines are not made as bytes."""
     assert assemble.text_matrix(np.array(["a", "b\0c"], dtype=object)) is None
     cols = [assemble.text_matrix(np.array(["a", "b\0c"], dtype=object))]
-    assert assemble.lines_text(["1", "2"], cols) is None
+    assert assemble.lines_bytes(["1", "2"], cols) is None
     good = [assemble.text_matrix(np.array(["a", "b"], dtype=object))]
-    assert assemble.lines_text(["1", "2"], good) == "1,a\r\n2,b\r\n"
+    assert assemble.lines_bytes(["1", "2"], good) == b"1,a\r\n2,b\r\n"
+
+
+@pytest.mark.parametrize("newline", [None, "\r\n", ""])
+@pytest.mark.parametrize("encoding", ["utf-8", "UTF8", "utf-8-sig", "utf-16"])
+def test_lines_reach_a_byte_stream_as_csv_writer_wrote_them(encoding, newline):
+    """Written to a text stream over bytes (standard output), the lines go
+    to its buffer as UTF-8 where it writes UTF-8, so a text mode that turns
+    "\\n" into CRLF (Windows) cannot make CR CR LF; another encoding gets the
+    text itself. Either way the bytes are csv.writer's lines in the
+    stream's encoding, the header and every row, in order."""
+    rows = _distinct_rows(300)
+    rows[5][2] = "µS/cm"
+    src = io.StringIO()
+    csv.writer(src, lineterminator="\r\n").writerows([HEADER] + rows)
+    src.seek(0)
+    raw = io.BytesIO()
+    dst = io.TextIOWrapper(raw, encoding=encoding, newline=newline)
+    assert batch.convert_csv(src, dst, chunk_rows=128) == len(rows)
+    dst.flush()
+    want = _reference(rows)
+    if newline == "\r\n" and encoding.lower().replace("-", "") != "utf8":
+        want = want.replace("\n", "\r\n")     # the text way: the stream's own translation
+    assert raw.getvalue() == want.encode(encoding)
 
 
 def _rows_in_contexts(n: int) -> list[list[str]]:

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import csv
 import gc
+import io
 from itertools import islice
 from operator import itemgetter
 from typing import Iterable, Iterator, TextIO
@@ -85,7 +86,10 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
     pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
     out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
     if fmt != "json":
-        csv.writer(dst, lineterminator="\r\n").writerow(in_cols + out_cols)
+        write = _utf8_writer(dst)
+        head = io.StringIO()
+        csv.writer(head, lineterminator="\r\n").writerow(in_cols + out_cols)
+        write(head.getvalue().encode("utf-8"))
     line = 2
     total = 0
     for chunk in chunks(reader, chunk_rows):
@@ -97,10 +101,23 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
             out = _converted(columns, len(chunk), line)
             _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
         else:
-            dst.write(_csv_chunk(chunk, in_cols, pos, out_cols, line))
+            write(_csv_chunk(chunk, in_cols, pos, out_cols, line))
         line += len(chunk)
         total += len(chunk)
     return total
+
+
+def _utf8_writer(dst: TextIO):
+    """A function writing UTF-8 bytes to ``dst``: straight to its binary
+    buffer where it has one and writes UTF-8 (no decoding and encoding again,
+    and no text-mode newline translation: the lines end in CRLF, as
+    csv.writer ends them, on Windows too), else decoded into it."""
+    raw = getattr(dst, "buffer", None)
+    encoding = (getattr(dst, "encoding", None) or "").lower().replace("-", "").replace("_", "")
+    if raw is not None and encoding == "utf8":
+        dst.flush()                     # what was written as text goes first
+        return raw.write
+    return lambda data: dst.write(data.decode("utf-8"))
 
 
 def _columns(chunk: list, pos: dict) -> dict:
@@ -118,8 +135,8 @@ def _converted(columns: dict, n: int, line: int) -> dict:
         raise RowError(f"lines {line}-{line + n - 1}: {e.message}", e.field) from None
 
 
-def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
-    """The chunk's CSV lines. A file repeats readings (the same value, unit,
+def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> bytes:
+    """The chunk's CSV lines, UTF-8. A file repeats readings (the same value, unit,
     sample... on many rows); where at least half the rows repeat another, only
     the distinct readings are converted and formatted, each row taking the
     results of its own (every input column the conversion reads is in the
@@ -136,12 +153,12 @@ def _csv_chunk(chunk: list, in_cols, pos: dict, out_cols, line: int) -> str:
         except InputError:
             pass
         else:
-            return lines.csv_text(heads, out, out_cols, codes)
+            return lines.csv_lines(heads, out, out_cols, codes)
     else:
         out = _in_contexts(chunk, pos, names, line)
         if out is not None:
-            return lines.csv_text(heads, out, out_cols)
-    return lines.csv_text(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
+            return lines.csv_lines(heads, out, out_cols)
+    return lines.csv_lines(heads, _converted(_columns(chunk, pos), len(chunk), line), out_cols)
 
 
 def _in_contexts(chunk: list, pos: dict, names: list, line: int) -> dict | None:

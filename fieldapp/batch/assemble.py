@@ -32,6 +32,9 @@ _PAIRS = 9
 _WIDTH = 2 * _PAIRS
 _PAIR = np.dtype("<u2")
 _ZERO, _POINT, _MINUS = ord("0"), ord("."), ord("-")
+#: How many zeros end each three digits 000..999 (three for 000).
+_TRAILING_ZEROS = np.array([3 if k == 0 else len(f"{k:03d}") - len(f"{k:03d}".rstrip("0"))
+                            for k in range(1000)], dtype=np.int32)
 
 
 def _plain_g6(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -52,10 +55,11 @@ def _plain_g6(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     y = x * 10.0 ** (5 - e)             # an exact power of ten: one rounding
     m = np.rint(y)
     fast &= (y >= 100_000) & (m <= 999_999) & (np.abs(y - np.floor(y) - 0.5) > 1e-6)
-    m = m.astype(np.int32)
+    m = np.minimum(m, 999_999).astype(np.int32)       # above: not fast, any digits
     lead = [m // 10 ** (5 - i) for i in range(6)]   # the first i + 1 digits
     digits = [lead[0]] + [lead[i] - 10 * lead[i - 1] for i in range(1, 6)]
-    kept = np.maximum.reduce([(i + 1) * (d != 0) for i, d in enumerate(digits)])
+    low = m - lead[2] * 1000            # the last three digits: their zeros, then the first three's
+    kept = 6 - _TRAILING_ZEROS[low] - (low == 0) * _TRAILING_ZEROS[lead[2]]
     out = np.empty((len(a), _PAIRS), dtype=_PAIR)
     below = e < 0
     out[:, 0] = (a < 0) * _MINUS + below * (_ZERO << 8)
@@ -132,25 +136,61 @@ def _head_rows(heads: list[str]) -> np.ndarray | None:
     return rows.view(np.uint8).reshape(len(heads), rows.dtype.itemsize)
 
 
-def lines_text(heads: list[str], columns: list[np.ndarray], codes=None) -> str | None:
-    """The chunk's lines: each row's head, then a comma and the cell of each
-    computed column (byte matrices of the distinct readings' cells where
-    ``codes[i]`` names the one row ``i`` repeats), then CRLF; made as one
-    matrix of bytes whose NULs are dropped. None where the heads cannot be
-    put in a matrix (:func:`_head_rows`) or a column is None (a cell with a
-NUL, :func:`text_matrix`); the caller joins those as text."""
+#: The lines are made in blocks of rows about this many bytes wide in all,
+#: so that each block's matrix stays in the processor's cache while every
+#: column is written into it (written whole, a chunk's matrix is tens of
+#: megabytes and each column's pass over it goes back to memory).
+_BLOCK_BYTES = 1 << 18
+
+
+def lines_bytes(heads: list[str], columns: list[np.ndarray], codes=None) -> bytes | None:
+    """The chunk's lines, UTF-8: each row's head, then a comma and the cell
+    of each computed column (byte matrices of the distinct readings' cells
+    where ``codes[i]`` names the one row ``i`` repeats), then CRLF; made a
+    block of rows at a time as a matrix of bytes whose NULs are dropped.
+    None where the heads cannot be put in a matrix (:func:`_head_rows`) or
+    a column is None (a cell with a NUL, :func:`text_matrix`); the caller
+    joins those as text."""
     head = _head_rows(heads)
     if head is None or any(c is None for c in columns):
         return None
+    n, hw = head.shape
     widths = [c.shape[1] for c in columns]
-    tail = np.empty((len(columns[0]), sum(widths) + len(widths) + 2), dtype=np.uint8)
+    width = hw + sum(widths) + len(widths) + 2
+    if codes is not None:               # the distinct readings' tails, then each row's
+        columns = [_tails(columns, widths)]
+        widths = [width - hw - 1]
+    rows = max(64, _BLOCK_BYTES // width)
+    pieces = []
+    for start in range(0, n, rows):
+        stop = min(n, start + rows)
+        if start == 0 or stop - start < rows:
+            buf = bytearray((stop - start) * width)
+            block = np.frombuffer(buf, dtype=np.uint8).reshape(stop - start, width)
+            at = hw                     # the commas and line ends stay from block to block
+            for w in widths:
+                block[:, at] = ord(",")
+                at += 1 + w
+            block[:, width - 2:] = np.frombuffer(b"\r\n", dtype=np.uint8)
+        block[:, :hw] = head[start:stop]
+        at = hw + 1
+        for col, w in zip(columns, widths):
+            block[:, at:at + w] = col[start:stop] if codes is None else col[codes[start:stop]]
+            at += 1 + w
+        pieces.append(buf.translate(None, b"\0"))
+    return b"".join(pieces)
+
+
+def _tails(columns: list[np.ndarray], widths: list[int]) -> np.ndarray:
+    """The computed cells of each distinct reading side by side, joined by
+    commas and ended by CRLF, without the comma before the first."""
+    tail = np.empty((len(columns[0]), sum(widths) + len(widths) + 1), dtype=np.uint8)
     at = 0
     for col, w in zip(columns, widths):
-        tail[:, at] = ord(",")
-        tail[:, at + 1:at + 1 + w] = col
-        at += 1 + w
+        if at:
+            tail[:, at] = ord(",")
+            at += 1
+        tail[:, at:at + w] = col
+        at += w
     tail[:, at:] = np.frombuffer(b"\r\n", dtype=np.uint8)
-    line = np.empty((len(heads), head.shape[1] + tail.shape[1]), dtype=np.uint8)
-    line[:, :head.shape[1]] = head
-    line[:, head.shape[1]:] = tail if codes is None else tail[codes]
-    return line.tobytes().translate(None, b"\0").decode("utf-8")
+    return tail

@@ -95,23 +95,23 @@ def _computed_matrices(out: dict, out_cols) -> list:
     return mats
 
 
-def csv_text(heads: list, out, out_cols, codes: list | None = None) -> str:
-    """The chunk's rows as CSV lines (``heads``: each row's input cells, from
-    :func:`row_texts`): the same text csv.writer writes row by row, the
-    computed cells made a column at a time and the lines assembled as bytes
-    (:mod:`.assemble`). Where ``out`` holds the results of the chunk's
-    distinct readings only, ``codes[i]`` is the one row ``i`` repeats: each
-    distinct reading's cells are made once."""
+def csv_lines(heads: list, out, out_cols, codes: list | None = None) -> bytes:
+    """The chunk's rows as CSV lines in UTF-8 (``heads``: each row's input
+    cells, from :func:`row_texts`): the same text csv.writer writes row by
+    row, the computed cells made a column at a time and the lines assembled
+    as bytes (:mod:`.assemble`). Where ``out`` holds the results of the
+    chunk's distinct readings only, ``codes[i]`` is the one row ``i``
+    repeats: each distinct reading's cells are made once."""
     if not out_cols:
-        return "\r\n".join(heads) + "\r\n"
-    text = assemble.lines_text(heads, _computed_matrices(out, out_cols), codes)
-    if text is not None:
-        return text
+        return ("\r\n".join(heads) + "\r\n").encode("utf-8")
+    data = assemble.lines_bytes(heads, _computed_matrices(out, out_cols), codes)
+    if data is not None:
+        return data
     cells = _computed_cells(out, out_cols)     # a head holds a line break: joined as text
     rows = list(map(",".join, zip(*cells)))
     if codes is not None:
         rows = list(map(rows.__getitem__, codes))
-    return "\r\n".join(map(",".join, zip(heads, rows))) + "\r\n"
+    return ("\r\n".join(map(",".join, zip(heads, rows))) + "\r\n").encode("utf-8")
 
 
 def row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
