@@ -96,7 +96,8 @@ def number_matrix(a) -> np.ndarray:
     cells[np.flatnonzero(~fast)] = 0    # missing: an empty cell
     if texts:
         cells[rest] = _rows_of(texts, width)
-    return cells
+    used = cells.any(axis=0)            # places no cell writes (a sign, "0.000"): left out,
+    return cells if used.all() else cells[:, used]     # a narrower line to make
 
 
 def text_matrix(values, word=None) -> np.ndarray | None:

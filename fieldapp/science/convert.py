@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import InputError, checks, extracts, osmotic, temperature, tolerance, units
-from .groups import groups as _groups
+from .groups import codes as _codes, groups as _groups
 
 #: Sample kinds whose own solution is what the plant roots see (or its nearest proxy).
 _SOLUTION_KINDS = {"water", "feed", "leachate", "drain", "sme"}
@@ -160,8 +160,15 @@ def _check_values(b: Batch) -> None:
         raise InputError("EC cannot be negative; type the number the meter shows.", "value")
 
 
+def _sample_in(b: Batch, kinds) -> np.ndarray:
+    """Whether each reading's sample kind is one of ``kinds``: asked once per
+    distinct kind (np.isin sorts the column's strings)."""
+    codes, values = _codes(b.sample)
+    return np.array([v in kinds for v in values], dtype=bool)[codes]
+
+
 def _is_soil(b: Batch) -> np.ndarray:
-    return np.isin(b.sample, ["paste", "extract"])
+    return _sample_in(b, ("paste", "extract"))
 
 
 def _unit_step(b: Batch) -> dict:
@@ -223,7 +230,7 @@ def _solute_step(b: Batch, c: dict) -> dict:
     media extracts; the default route, Handbook 60 where it is out of range,
     the seawater route where the user says so."""
     t_soln = np.where(np.isnan(b.temp_c), 25.0, b.temp_c)
-    is_solution = np.isin(b.sample, list(_SOLUTION_KINDS))
+    is_solution = _sample_in(b, _SOLUTION_KINDS)
     basis = np.where(_is_soil(b), c["ece_dS_m"],
                      np.where(is_solution, c["ec25_dS_m"], np.nan))
     routes = osmotic.psi_s_all_routes(basis, t_soln)

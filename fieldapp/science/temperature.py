@@ -309,13 +309,17 @@ def applied_method(temp_c, compensated, method="iso7888") -> np.ndarray:
     _check_method(method, DEFAULT_ALPHA_PER_C)
     _, t, comp = _broadcast_inputs(0.0, temp_c, compensated)
     lo, hi = ISO7888_RANGE_C
-    if method == "iso7888":
-        inside = (t >= lo) & (t <= hi)
-        base = np.where(inside, "iso7888", "iso7888_linear_beyond_table")
+    if method == "iso7888":             # a code per reading, then its label
+        code = 2 + ~((t >= lo) & (t <= hi))
     else:
-        base = np.full(t.shape, "linear", dtype="<U27")
-    out = np.where(np.isnan(t), "assumed_25", base)
-    return np.where(comp, "meter", out)
+        code = np.full(t.shape, 4, dtype=np.int8)
+    code = np.where(comp, 0, np.where(np.isnan(t), 1, code))
+    return np.asarray(_APPLIED_LABELS[code], dtype=_APPLIED_LABELS.dtype)   # 0-d stays an array
+
+
+#: The labels :func:`applied_method` gives, by its codes.
+_APPLIED_LABELS = np.array(["meter", "assumed_25", "iso7888", "iso7888_linear_beyond_table",
+                            "linear"], dtype="<U27")
 
 
 def kcl_001_molal_uS_cm(temp_c) -> np.ndarray:
