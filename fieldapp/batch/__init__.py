@@ -13,15 +13,15 @@ from __future__ import annotations
 import csv
 import gc
 import io
-from itertools import islice
-from operator import itemgetter
+from itertools import chain, islice
+from operator import itemgetter, methodcaller
 from typing import Iterable, Iterator, TextIO
 
 import numpy as np
 
 from ..science import InputError, convert
 from .cells import CONTEXT_COLUMNS, RowError, columns_to_batch, columns_to_batch_in_contexts
-from . import lines
+from . import lines, parallel
 from .lines import _write_json, format_number
 
 __all__ = ["INPUT_COLUMNS", "OUTPUT_COLUMNS", "CHUNK_ROWS", "RowError", "columns_to_batch",
@@ -61,22 +61,24 @@ def _even(chunk: list, width: int) -> list:
 
 
 def convert_csv(src: TextIO, dst: TextIO, chunk_rows: int = CHUNK_ROWS,
-                fmt: str = "csv") -> int:
+                fmt: str = "csv", jobs: int = 1) -> int:
     """Read readings from ``src`` (CSV with a header), write them with the
     computed columns to ``dst``: as CSV, or with ``fmt="json"`` as one JSON
     object per line (numbers unrounded, flags as a list of codes). Returns the
     number of rows. Raises RowError naming the line of the first row that
-    cannot be a reading."""
+    cannot be a reading. With ``jobs`` above 1 (CSV, on Linux), chunks are
+    converted side by side by helper processes (:mod:`.parallel`); the
+    output is the same."""
     paused = gc.isenabled()
     gc.disable()        # nothing here makes cycles; a million rows' lists made the
     try:                # collector walk every live chunk again and again
-        return _convert(src, dst, chunk_rows, fmt)
+        return _convert(src, dst, chunk_rows, fmt, jobs)
     finally:
         if paused:
             gc.enable()
 
 
-def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
+def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str, jobs: int = 1) -> int:
     reader = csv.reader(src)
     header = next(reader, None)
     if not header or "value" not in header or "unit" not in header:
@@ -85,26 +87,74 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str) -> int:
     in_cols = list(header)
     pos = {c: i for i, c in enumerate(in_cols)}      # a repeated name: its last cell, as before
     out_cols = [c for c in OUTPUT_COLUMNS if c not in in_cols]
-    if fmt != "json":
-        write = _utf8_writer(dst)
-        head = io.StringIO()
-        csv.writer(head, lineterminator="\r\n").writerow(in_cols + out_cols)
-        write(head.getvalue().encode("utf-8"))
+    if fmt == "json":
+        return _convert_json(reader, dst, in_cols, pos, out_cols, chunk_rows)
+    write = _utf8_writer(dst)
+    head = io.StringIO()
+    csv.writer(head, lineterminator="\r\n").writerow(in_cols + out_cols)
+    write(head.getvalue().encode("utf-8"))
+    in_order = parallel.InOrder(_chunk_lines, write, jobs)
+    try:
+        total, rest = 0, None
+        if in_order.jobs > 1:           # blocks of lines, read by whoever converts them
+            total, rest = _put_line_blocks(src, in_order, in_cols, pos, out_cols, chunk_rows)
+            reader = None if rest is None else csv.reader(chain(rest, src))
+        if reader is not None:
+            line = 2 + total
+            for chunk in chunks(reader, chunk_rows):
+                chunk = _even(chunk, len(in_cols))
+                if chunk:
+                    in_order.put(chunk, in_cols, pos, out_cols, line)
+                line += len(chunk)
+                total += len(chunk)
+        in_order.finish()
+    finally:
+        in_order.close()
+    return total
+
+
+def _convert_json(reader, dst, in_cols, pos, out_cols, chunk_rows: int) -> int:
     line = 2
-    total = 0
     for chunk in chunks(reader, chunk_rows):
         chunk = _even(chunk, len(in_cols))
-        if not chunk:
-            continue
-        if fmt == "json":
+        if chunk:
             columns = _columns(chunk, pos)
             out = _converted(columns, len(chunk), line)
             _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
-        else:
-            write(_csv_chunk(chunk, in_cols, pos, out_cols, line))
         line += len(chunk)
-        total += len(chunk)
-    return total
+    return line - 2
+
+
+#: A line csv.reader reads as no row (skipped, and not counted).
+_BLANK = frozenset(("\n", "\r\n", "\r"))
+
+
+def _put_line_blocks(src, in_order, in_cols, pos, out_cols, chunk_rows: int):
+    """Put the file's lines a block at a time, as text, while every line is
+    one row: a line with an odd number of quotes may open a cell that holds
+    a line break, so from its block on the rows are read here by csv.reader
+    (returned as ``rest``, the lines of that block). Returns (rows put,
+    rest or None)."""
+    total = 0
+    while True:
+        lines = list(islice(src, chunk_rows))
+        if not lines:
+            return total, None
+        text = "".join(lines)
+        if '"' in text and any(n % 2 for n in map(methodcaller("count", '"'), lines)):
+            return total, lines
+        n = len(lines) - sum(map(_BLANK.__contains__, lines))
+        if n:
+            in_order.put(text, in_cols, pos, out_cols, 2 + total)
+        total += n
+
+
+def _chunk_lines(rows, in_cols, pos: dict, out_cols, line: int) -> bytes:
+    """The CSV lines of a chunk: its rows, or its text (lines each one row)
+    read by csv.reader here."""
+    if isinstance(rows, str):
+        rows = _even(list(csv.reader(io.StringIO(rows, newline=""))), len(in_cols))
+    return _csv_chunk(rows, in_cols, pos, out_cols, line) if rows else b""
 
 
 def _utf8_writer(dst: TextIO):

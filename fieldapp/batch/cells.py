@@ -31,6 +31,9 @@ class RowError(InputError):
         super().__init__(message, field)
         self.line = line
 
+    def __reduce__(self):               # from a helper process, its field and line too
+        return RowError, (self.message, self.field, self.line)
+
 
 #: A character that sends a number column cell by cell through
 #: parse_number: the cells of a column made only of the characters that

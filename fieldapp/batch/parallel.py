@@ -1,0 +1,109 @@
+"""convert-csv on more than one core: chunks converted side by side, written
+in the file's order.
+
+Each chunk of rows is converted on its own (its lines depend on nothing
+else in the file). With ``jobs`` of 2 the program converts the first chunk
+itself, hands the second to a helper process, converts the third while the
+helper works, and so on; the chunks' lines are written in order, each once
+it and every chunk before it are done. The program reads the file; a
+helper is handed a block of its lines as one text (cheap to pass) and reads
+them as CSV itself. At most ``jobs`` chunks are in hand at once, so memory
+stays flat with the file. A bad row ends the run as it does on one core:
+the lines of every chunk before its own are written, then its error is
+raised (naming its line), whichever process read it.
+
+Helpers are forked processes, so this runs only on Linux, where ``fork``
+is the system's own way of starting one; elsewhere, and for a file of one
+chunk, everything is converted in the one process (no helper is started).
+A helper that dies is not waited for: its chunk is converted here instead.
+"""
+from __future__ import annotations
+
+import multiprocessing
+import os
+import signal
+import sys
+from collections import deque
+from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
+from typing import Callable
+
+
+def helpers_possible() -> bool:
+    """Whether helper processes can be forked here (Linux)."""
+    return sys.platform.startswith("linux") and "fork" in multiprocessing.get_all_start_methods()
+
+
+def default_jobs() -> int:
+    """2 where a second core and forked helpers are there, else 1."""
+    return 2 if helpers_possible() and (os.cpu_count() or 1) >= 2 else 1
+
+
+def _quiet_helper() -> None:
+    """A helper leaves Ctrl-C to the program, which stops it."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+class InOrder:
+    """Chunks converted by ``convert(*args)`` (a function of a module, so a
+    helper can be handed it), here or in helpers, their lines handed to
+    ``write`` in the order the chunks were put. :meth:`put` each chunk,
+    :meth:`finish` at the end, :meth:`close` in a ``finally``."""
+
+    def __init__(self, convert: Callable[..., bytes], write: Callable[[bytes], object],
+                 jobs: int = 1):
+        self._convert = convert
+        self._write = write
+        self._jobs = max(1, int(jobs)) if helpers_possible() else 1
+        self._pool: ProcessPoolExecutor | None = None
+        self._pending: deque = deque()  # (future or None, args, bytes or exception)
+        self._count = 0
+
+    @property
+    def jobs(self) -> int:
+        """How many processes convert (1: this one alone)."""
+        return self._jobs
+
+    def put(self, *args) -> None:
+        """Take a chunk; write the lines of the chunks now done, in order."""
+        mine = self._count % self._jobs == 0   # the first here: a one-chunk file starts no helper
+        self._count += 1
+        if not mine:
+            self._pending.append((self._helpers().submit(self._convert, *args), args, None))
+            return
+        try:
+            self._pending.append((None, args, self._convert(*args)))
+        except Exception as e:          # raised once the chunks before it are written
+            self._pending.append((None, args, e))
+        self._drain()
+
+    def finish(self) -> None:
+        """Write the lines of every chunk still in hand, in order."""
+        self._drain()
+
+    def close(self) -> None:
+        """Stop the helpers without waiting for a chunk nobody will write."""
+        if self._pool is not None:
+            self._pool.shutdown(wait=False, cancel_futures=True)
+            self._pool = None
+
+    def _helpers(self) -> ProcessPoolExecutor:
+        if self._pool is None:
+            self._pool = ProcessPoolExecutor(max_workers=self._jobs - 1,
+                                             mp_context=multiprocessing.get_context("fork"),
+                                             initializer=_quiet_helper)
+        return self._pool
+
+    def _drain(self) -> None:
+        while self._pending:
+            future, args, done = self._pending.popleft()
+            if future is not None:
+                try:
+                    done = future.result()
+                except BrokenProcessPool:   # the helper died: convert its chunk here
+                    self.close()
+                    self._jobs = 1
+                    done = self._convert(*args)
+            if isinstance(done, Exception):
+                raise done
+            self._write(done)

@@ -1,0 +1,155 @@
+"""convert-csv with helper processes (fieldapp.batch.parallel): the same
+bytes as one process writes, which are csv.writer's lines of every row
+converted on its own (test_batch_repeats._reference); a bad row named as on
+one core, after the same lines; a helper that dies costs nothing."""
+from __future__ import annotations
+
+import csv
+import io
+import os
+
+import pytest
+
+from fieldapp import batch
+from fieldapp.batch import parallel
+from fieldapp.batch.cells import RowError
+
+from test_batch_bytes import _distinct_rows
+from test_batch_repeats import HEADER, _reference, _rows
+
+pytestmark = pytest.mark.skipif(not parallel.helpers_possible(),
+                                reason="helper processes are forked on Linux only")
+
+
+def _text(rows, newline="\r\n", header=HEADER) -> str:
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator=newline).writerows([header] + rows)
+    return buf.getvalue()
+
+
+def _run(text: str, jobs: int, chunk_rows: int = 64) -> tuple[bytes, RowError | None]:
+    """(the bytes written, the error raised or None)."""
+    raw = io.BytesIO()
+    dst = io.TextIOWrapper(raw, encoding="utf-8", newline="")
+    err = None
+    try:
+        batch.convert_csv(io.StringIO(text, newline=""), dst, chunk_rows=chunk_rows, jobs=jobs)
+    except RowError as e:
+        err = e
+    dst.flush()
+    return raw.getvalue(), err
+
+
+def _blank_lines(text: str) -> str:
+    """Blank lines of each kind between rows (csv.reader skips them)."""
+    lines = text.splitlines(keepends=True)
+    for i in range(len(lines) - 1, 1, -37):
+        lines.insert(i, "\r\n" if i % 2 else "\n")
+    return "".join(lines)
+
+
+FILES = {
+    "all different, quoted cells": lambda: _text(_distinct_rows(700)),
+    "repeated readings": lambda: _text(_rows(700)),
+    "blank lines": lambda: _blank_lines(_text(_distinct_rows(700))),
+    "LF line ends": lambda: _text(_distinct_rows(500), newline="\n"),
+    "CR line ends": lambda: _text(_distinct_rows(500), newline="\r"),
+    "a cell with a line break": lambda: _text(_distinct_rows(300)[:200]
+                                              + [["Bench 4\nnorth"] + _distinct_rows(1)[0][1:]]
+                                              + _distinct_rows(300)[200:]),
+    "short and long rows": lambda: _text([r[:5] if i % 9 == 0 else r + ["x"] if i % 11 == 0
+                                          else r for i, r in enumerate(_distinct_rows(400))]),
+}
+
+
+@pytest.mark.parametrize("name", list(FILES))
+def test_helpers_write_what_one_process_writes(name):
+    text = FILES[name]()
+    one, err1 = _run(text, 1)
+    two, err2 = _run(text, 2)
+    three, err3 = _run(text, 3, chunk_rows=50)
+    assert err1 is err2 is err3 is None
+    assert two == one and three == _run(text, 1, chunk_rows=50)[0]
+    assert one.count(b"\r\n") >= 300
+
+
+def test_helpers_match_csv_writer_row_by_row():
+    rows = _distinct_rows(450)
+    assert _run(_text(rows), 2)[0] == _reference(rows).encode("utf-8")
+
+
+@pytest.mark.parametrize("bad_line", [10, 70, 140, 200])
+def test_a_bad_row_is_named_after_the_same_lines(bad_line):
+    """Chunks of 64 rows: line 70 and 200 are in chunks a helper converts,
+    10 and 140 in the program's own (the chunk after a helper's)."""
+    rows = _distinct_rows(300)
+    rows[bad_line - 2][1] = "1,2.3"
+    one, err1 = _run(_text(rows), 1)
+    two, err2 = _run(_text(rows), 2)
+    assert err1 is not None and err2 is not None
+    assert (err2.line, err2.field, err2.message) == (err1.line, err1.field, err1.message)
+    assert err2.line == bad_line
+    assert two == one                   # the header and every chunk before the bad one
+    assert two.count(b"\r\n") == 1 + (bad_line - 2) // 64 * 64
+
+
+def test_a_row_error_keeps_its_field_and_line_through_pickling():
+    import pickle
+    e = pickle.loads(pickle.dumps(RowError("line 7: bad", "value", 7)))
+    assert (e.message, e.field, e.line) == ("line 7: bad", "value", 7)
+
+
+def _lines_with_pid(k: int) -> bytes:
+    return f"{k} {os.getpid()}\n".encode()
+
+
+_PARENT = os.getpid()
+
+
+def _dies_in_a_helper(k: int) -> bytes:
+    if os.getpid() != _PARENT:
+        os._exit(3)
+    return f"{k}\n".encode()
+
+
+def test_chunks_come_back_in_order_from_more_than_one_process():
+    out = []
+    in_order = parallel.InOrder(_lines_with_pid, out.append, jobs=2)
+    try:
+        for k in range(9):
+            in_order.put(k)
+        in_order.finish()
+    finally:
+        in_order.close()
+    got = [line.split() for line in b"".join(out).decode().splitlines()]
+    assert [int(k) for k, _ in got] == list(range(9))
+    assert got[0][1] == str(os.getpid())            # the first chunk: no helper yet
+    assert len({pid for _, pid in got}) == 2
+
+
+def test_a_helper_that_dies_costs_its_chunk_nothing():
+    out = []
+    in_order = parallel.InOrder(_dies_in_a_helper, out.append, jobs=2)
+    try:
+        for k in range(7):
+            in_order.put(k)
+        in_order.finish()
+    finally:
+        in_order.close()
+    assert b"".join(out).decode().split() == [str(k) for k in range(7)]
+
+
+def test_one_chunk_starts_no_helper(monkeypatch):
+    def refused(*a, **k):
+        raise AssertionError("a helper was started for a file of one chunk")
+    monkeypatch.setattr(parallel, "ProcessPoolExecutor", refused)
+    text = _text(_distinct_rows(60))
+    assert _run(text, 2)[0] == _run(text, 1)[0]
+
+
+def test_without_fork_everything_is_converted_here(monkeypatch):
+    monkeypatch.setattr(parallel, "helpers_possible", lambda: False)
+    monkeypatch.setattr(parallel, "ProcessPoolExecutor", None)
+    assert parallel.InOrder(_lines_with_pid, list.append, jobs=4).jobs == 1
+    text = _text(_distinct_rows(300))
+    assert _run(text, 2)[0] == _run(text, 1)[0]
