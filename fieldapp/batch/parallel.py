@@ -56,8 +56,9 @@ class InOrder:
         self._write = write
         self._jobs = max(1, int(jobs)) if helpers_possible() else 1
         self._pool: ProcessPoolExecutor | None = None
-        self._pending: deque = deque()  # (future or None, args, bytes or exception)
-        self._count = 0
+        self._pending: deque = deque()  # [future or None, args, bytes or exception]
+        self._mine: list | None = None  # this round's chunk for this process, held
+        self._round = 0                 # chunks put in this round
 
     @property
     def jobs(self) -> int:
@@ -65,20 +66,36 @@ class InOrder:
         return self._jobs
 
     def put(self, *args) -> None:
-        """Take a chunk; write the lines of the chunks now done, in order."""
-        mine = self._count % self._jobs == 0   # the first here: a one-chunk file starts no helper
-        self._count += 1
-        if not mine:
-            self._pending.append((self._helpers().submit(self._convert, *args), args, None))
-            return
-        try:
-            self._pending.append((None, args, self._convert(*args)))
-        except Exception as e:          # raised once the chunks before it are written
-            self._pending.append((None, args, e))
-        self._drain()
+        """Take a chunk; write the lines of the chunks now done, in order.
+        Chunks go in rounds of ``jobs``: the first of each is this process's,
+        held until the others are handed to helpers (so they work while it
+        converts its own), or until :meth:`finish` (a file of one chunk
+        starts no helper)."""
+        if self._round == 0:
+            self._mine = [None, args, None]
+            self._pending.append(self._mine)
+        else:
+            self._pending.append([self._helpers().submit(self._convert, *args), args, None])
+        self._round += 1
+        if self._round >= self._jobs:
+            self._end_round()
 
     def finish(self) -> None:
-        """Write the lines of every chunk still in hand, in order."""
+        """Write the lines of every chunk still in hand, in order; the
+        helpers, idle now, are ended."""
+        if self._round:
+            self._end_round()
+        if self._pool is not None:
+            self._pool.shutdown(wait=True)
+            self._pool = None
+
+    def _end_round(self) -> None:
+        """Convert this process's chunk of the round, then write the round."""
+        mine, self._mine, self._round = self._mine, None, 0
+        try:
+            mine[2] = self._convert(*mine[1])
+        except Exception as e:          # raised once the chunks before it are written
+            mine[2] = e
         self._drain()
 
     def close(self) -> None:

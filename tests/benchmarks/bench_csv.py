@@ -178,11 +178,11 @@ def job_csv_pass(src, dst):
         csv.writer(out, lineterminator="\r\n").writerows(csv.reader(f))
 
 
-def job_convert_cli(src):
-    """``python -m fieldapp convert-csv SRC`` as a user runs it (stdout is the
-    file the parent opened)."""
+def job_convert_cli(src, *options):
+    """``python -m fieldapp convert-csv [OPTIONS] SRC`` as a user runs it
+    (stdout is the file the parent opened)."""
     import runpy
-    sys.argv = ["fieldapp", "convert-csv", src]
+    sys.argv = ["fieldapp", "convert-csv", *options, src]
     try:
         runpy.run_module("fieldapp", run_name="__main__", alter_sys=True)
     except SystemExit as e:
@@ -203,8 +203,13 @@ def _vm_hwm_kib() -> int:
 def _child_main(argv) -> int:
     t0 = time.perf_counter()
     inner = globals()["job_" + argv[0]](*argv[1:])
+    import resource
+    times = os.times()
     got = {"s": time.perf_counter() - t0, "rss_kib": _vm_hwm_kib(),
-           "inner_s": inner if isinstance(inner, float) else None}
+           "inner_s": inner if isinstance(inner, float) else None,
+           # the processor time of this process and of the helpers it ended
+           "cpu_s": times.user + times.system + times.children_user + times.children_system,
+           "helper_rss_kib": resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss}
     with open(os.environ["BENCH_CSV_RESULT"], "w") as f:
         json.dump(got, f)
     return 0
@@ -293,9 +298,11 @@ def bench_import(cache, n, small_n, work: Path):
 
 def bench_convert(cache, n, small_n, work: Path):
     """convert-csv beside its floor on the usual file (160 kinds of reading
-    repeated), then on a file of all-different readings beside its own floor."""
-    def ours(path, out):
-        r = _child("convert_cli", str(path), stdout=out)
+    repeated), then on a file of all-different readings beside its own floor;
+    each as a user runs it (on Linux with two cores: a helper process
+    converts every second chunk) and with ``--jobs 1`` (one process)."""
+    def ours(path, out, *options):
+        r = _child("convert_cli", str(path), *options, stdout=out)
         return {**r, "s": r["wall_s"]}          # from process start, as a user waits
 
     def bare(path):
@@ -306,14 +313,22 @@ def bench_convert(cache, n, small_n, work: Path):
         src = cached_convert_input(cache, n, distinct)
         small_src = cached_convert_input(cache, small_n, distinct)
         ours(small_src, work / "warm.csv")
-        core, floor = _alternate(lambda: ours(src, work / "out.csv"), lambda: bare(src),
-                                 repeat=3)      # short runs: a third pair steadies the ratio
+        runs = {"as run": [], "--jobs 1": [], "floor": []}
+        for _ in range(3):              # in turn: a busy machine slows each alike
+            runs["as run"].append(ours(src, work / "out.csv"))
+            runs["--jobs 1"].append(ours(src, work / "out1.csv", "--jobs", "1"))
+            runs["floor"].append(bare(src))
+        core, one, floor = (min(runs[k], key=lambda r: r["s"]) for k in runs)
         s_core = ours(small_src, work / "small.csv")
         kind = "every row a different reading" if distinct else "160 kinds of reading repeated"
         print(f"convert-csv of {n:,} rows, {kind} ({src.stat().st_size / 1e6:.0f} MB; floor: "
               "bare csv.reader -> csv.writer, both from process start)")
         _print("fieldapp convert-csv", core, floor, "3x", s_core, small_n)
-        print(f"  {'':<26} {n / core['s']:,.0f} rows/s")
+        print(f"  {'':<26} {n / core['s']:,.0f} rows/s; processor time {core['cpu_s']:.2f} s "
+              f"(floor {floor['cpu_s']:.2f} s); helper's peak RSS "
+              f"{_mib(core['helper_rss_kib'])}")
+        _print("  with --jobs 1", one, floor, "3x")
+        print(f"  {'':<26} processor time {one['cpu_s']:.2f} s")
 
 
 def main(argv=None) -> int:
