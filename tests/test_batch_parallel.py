@@ -21,6 +21,13 @@ pytestmark = pytest.mark.skipif(not parallel.helpers_possible(),
                                 reason="helper processes are forked on Linux only")
 
 
+@pytest.fixture(autouse=True)
+def _helpers_kept(monkeypatch):
+    """Helpers kept however fast a chunk converts (tiny chunks here), so
+    the helper way is the one tested; the switch is tested on its own."""
+    monkeypatch.setattr(batch, "HELPERS_PAY", 0)
+
+
 def _text(rows, newline="\r\n", header=HEADER) -> str:
     buf = io.StringIO()
     csv.writer(buf, lineterminator=newline).writerows([header] + rows)
@@ -153,3 +160,22 @@ def test_without_fork_everything_is_converted_here(monkeypatch):
     assert parallel.InOrder(_lines_with_pid, list.append, jobs=4).jobs == 1
     text = _text(_distinct_rows(300))
     assert _run(text, 2)[0] == _run(text, 1)[0]
+
+
+@pytest.mark.parametrize("name", ["all different, quoted cells", "blank lines",
+                                  "a cell with a line break"])
+def test_a_fast_file_goes_on_in_one_process_with_the_same_bytes(monkeypatch, name):
+    """Where a chunk converts about as fast as it is read (repeated
+    readings), the helpers are stopped after the first round and the rest
+    is read here by csv.reader: the same lines, none twice or lost."""
+    stopped = []
+    alone = parallel.InOrder.alone
+
+    def spy(self):
+        stopped.append(self.own_s)
+        alone(self)
+    monkeypatch.setattr(parallel.InOrder, "alone", spy)
+    monkeypatch.setattr(batch, "HELPERS_PAY", float("inf"))
+    text = FILES[name]()
+    assert _run(text, 2)[0] == _run(text, 1)[0]
+    assert len(stopped) == 1 and stopped[0] > 0

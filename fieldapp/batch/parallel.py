@@ -23,6 +23,7 @@ import multiprocessing
 import os
 import signal
 import sys
+import time
 from collections import deque
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -59,6 +60,7 @@ class InOrder:
         self._pending: deque = deque()  # [future or None, args, bytes or exception]
         self._mine: list | None = None  # this round's chunk for this process, held
         self._round = 0                 # chunks put in this round
+        self.own_s: float | None = None  # how long this process took for its last chunk
 
     @property
     def jobs(self) -> int:
@@ -89,13 +91,22 @@ class InOrder:
             self._pool.shutdown(wait=True)
             self._pool = None
 
+    def alone(self) -> None:
+        """Convert every chunk from now on in this process (the ones in
+        hand are written first): where a chunk converts about as fast as it
+        is read, handing it over costs more than it saves."""
+        self.finish()
+        self._jobs = 1
+
     def _end_round(self) -> None:
         """Convert this process's chunk of the round, then write the round."""
         mine, self._mine, self._round = self._mine, None, 0
+        started = time.perf_counter()
         try:
             mine[2] = self._convert(*mine[1])
         except Exception as e:          # raised once the chunks before it are written
             mine[2] = e
+        self.own_s = time.perf_counter() - started
         self._drain()
 
     def close(self) -> None:
