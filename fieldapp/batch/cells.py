@@ -95,66 +95,11 @@ def _plain_numbers(col) -> np.ndarray | None:
         joined = "\n".join(c or "" for c in col)
     if _NOT_PLAIN_RE.search(joined):
         return None
-    out = decimals(joined, len(col))
-    if out is None:
-        try:
-            out = np.array([c or "nan" for c in col], dtype=float)
-        except ValueError:              # "1.2.3", or a cell holding a newline of its own
-            return None
+    try:
+        out = np.array([c or "nan" for c in col], dtype=float)
+    except ValueError:                  # "1.2.3", or a cell holding a newline of its own
+        return None
     return None if np.isinf(out).any() else out
-
-
-_PLACES = np.arange(18)
-_TENS = 10 ** np.arange(16, dtype=np.int64)
-
-
-def decimals(joined: str, n: int) -> np.ndarray | None:
-    """The floats of ``n`` cells joined by newlines, each empty (NaN) or a
-    plain decimal, ``[-]digits[.digits]`` of at most 15 digits; None where
-    any cell is of another form (the caller reads those as float() does).
-    Made from the cells' bytes for the whole column at once: the digits as
-    one integer ``m`` (below 2**53, so exact) and ``k`` digits after the
-    point give ``m / 10**k``, one correctly rounded division of two exact
-    numbers, which is the nearest float to the decimal: what float() reads."""
-    if "e" in joined or "E" in joined or "+" in joined or not n:
-        return None
-    data = joined.encode("ascii", "replace")
-    b = np.frombuffer(data + b"\0", dtype=np.uint8)   # a NUL after the last: the padding
-    ends = np.flatnonzero(b == 10)
-    if len(ends) != n - 1:
-        return None
-    starts = np.empty(n, dtype=np.intp)
-    starts[0], starts[1:] = 0, ends + 1
-    lens = np.empty(n, dtype=np.intp)
-    lens[:-1], lens[-1] = ends, len(data)
-    lens -= starts
-    width = int(lens.max())
-    if width > 17:
-        return None
-    if width == 0:
-        return np.full(n, np.nan)
-    places = _PLACES[:width]
-    past = places >= lens[:, None]
-    at = starts[:, None] + places
-    at[past] = len(data)                                # past a cell's end: the NUL
-    cells = b[at]
-    d = cells.astype(np.int8) - ord("0")
-    digit = (d >= 0) & (d <= 9)
-    seen = np.cumsum(digit, axis=1, dtype=np.int8)      # digits up to each place
-    count = seen[:, -1]
-    point = cells == ord(".")
-    points = point.sum(axis=1)
-    minus = cells == ord("-")
-    if (points > 1).any() or minus[:, 1:].any() or (count > 15).any() \
-            or ((count == 0) & (lens > 0)).any() or (~(digit | point | minus | past)).any():
-        return None
-    m = (np.where(digit, d, 0) * _TENS[count[:, None] - seen]).sum(axis=1)
-    before = np.take_along_axis(seen, np.argmax(point, axis=1)[:, None], 1)[:, 0]
-    k = np.where(points > 0, count - before, 0)
-    out = m / 10.0 ** k
-    out = np.where(cells[:, 0] == ord("-"), -out, out)
-    out[lens == 0] = np.nan
-    return out
 
 
 def _empty(line: int):
