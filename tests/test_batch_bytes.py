@@ -184,3 +184,17 @@ def test_groups_are_the_rows_sharing_every_key(kinds):
     got = {tuple("nan" if k != k else k for k in key): rows.tolist()
            for key, rows in groups(a, words, b_coded)}
     assert got == want
+
+
+def test_a_column_of_plain_numbers_reads_as_the_form_reads_each_cell():
+    """A column read at once (cells._number_column) gives each cell the
+    number forms.parse_number gives it alone (the page's reading of a typed
+    number), on random decimals and the other plain forms a file holds."""
+    from fieldapp import forms
+    from fieldapp.batch.cells import _number_column
+    rng = np.random.default_rng(7)
+    cells = [f"{x:.{int(rng.integers(0, 9))}f}" for x in rng.lognormal(0, 3, 20_000)]
+    cells += ["-0", ".5", "5.", "+1", "1e3", "1E-3", "-2.5e-2", "007", "0.000", "", "12"]
+    got = _number_column(cells, 2, "temp_c")
+    want = [np.nan if c == "" else forms.parse_number(c, "temp_c") for c in cells]
+    assert np.array_equal(got, np.array(want, dtype=float), equal_nan=True)

@@ -93,11 +93,13 @@ def _plain_numbers(col) -> np.ndarray | None:
         joined = "\n".join(col)
     except TypeError:                   # a short row's missing cells (None)
         joined = "\n".join(c or "" for c in col)
-    if _NOT_PLAIN_RE.search(joined):
-        return None
-    try:
-        out = np.array([c or "nan" for c in col], dtype=float)
-    except ValueError:                  # "1.2.3", or a cell holding a newline of its own
+    if _NOT_PLAIN_RE.search(joined) or joined.count("\n") != len(col) - 1:
+        return None                     # not plain, or a cell holding a line break of its own
+    empty = not joined or joined.startswith("\n") or joined.endswith("\n") or "\n\n" in joined
+    try:                                # float() reads these as numpy's cast reads them
+        out = np.fromiter(map(float, (c or "nan" for c in col) if empty else col),
+                          dtype=float, count=len(col))
+    except ValueError:                  # "1.2.3"
         return None
     return None if np.isinf(out).any() else out
 
