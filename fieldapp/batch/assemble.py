@@ -84,6 +84,8 @@ def number_matrix(a) -> np.ndarray:
     """A float column's CSV cells (those of ``number(x, 6, missing="")``) as
     a matrix of bytes."""
     a = np.asarray(a, dtype=float)
+    if np.isnan(a).all():               # a column no reading has (no crop, no sea salt)
+        return np.zeros((len(a), 0), dtype=np.uint8)
     fast, cells = _plain_g6(a)
     rest = np.flatnonzero(~fast & np.isfinite(a))
     texts = []
