@@ -238,7 +238,7 @@ def _in_contexts(chunk: list, pos: dict, names: list, line: int) -> dict | None:
     if found is None:
         return None
     rows, codes = found
-    numbers = {c: [r[pos[c]] for r in chunk] for c in names if c not in CONTEXT_COLUMNS}
+    numbers = {c: list(map(itemgetter(pos[c]), chunk)) for c in names if c not in CONTEXT_COLUMNS}
     try:
         return convert.convert_batch(columns_to_batch_in_contexts(
             numbers, dict(zip(words, zip(*rows))), codes, n, line))

@@ -62,8 +62,9 @@ def _number_column(col, first_line: int, field: str, required: bool = False) -> 
     an empty cell is refused, in line order with the cells that are not numbers).
     A column of few distinct texts (a temperature, a factor) is parsed once
     per text; a column of plain decimals in one numpy call; the rest cell by cell."""
-    distinct = set(col)
-    if len(distinct) * 8 <= len(col):
+    sample = col[:: max(1, len(col) // 2000)]
+    distinct = set(col) if len(set(sample)) * 8 <= len(sample) else ()
+    if distinct and len(distinct) * 8 <= len(col):
         memo = {}
         for text in distinct:
             try:
