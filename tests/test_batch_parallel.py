@@ -11,7 +11,7 @@ import os
 import pytest
 
 from fieldapp import batch
-from fieldapp.batch import parallel
+from fieldapp.batch import blocks, parallel
 from fieldapp.batch.cells import RowError
 
 from test_batch_bytes import _distinct_rows
@@ -25,7 +25,7 @@ pytestmark = pytest.mark.skipif(not parallel.helpers_possible(),
 def _helpers_kept(monkeypatch):
     """Helpers kept however fast a chunk converts (tiny chunks here), so
     the helper way is the one tested; the switch is tested on its own."""
-    monkeypatch.setattr(batch, "HELPERS_PAY", 0)
+    monkeypatch.setattr(blocks, "HELPERS_PAY", 0)
 
 
 def _text(rows, newline="\r\n", header=HEADER) -> str:
@@ -167,7 +167,7 @@ def test_without_fork_everything_is_converted_here(monkeypatch):
 def test_a_fast_file_goes_on_in_one_process_with_the_same_bytes(monkeypatch, name):
     """Where a chunk converts about as fast as it is read (repeated
     readings), the helpers are stopped after the first round and the rest
-    is read here by csv.reader: the same lines, none twice or lost."""
+    is converted here: the same lines, none twice or lost."""
     stopped = []
     alone = parallel.InOrder.alone
 
@@ -175,7 +175,8 @@ def test_a_fast_file_goes_on_in_one_process_with_the_same_bytes(monkeypatch, nam
         stopped.append(self.own_s)
         alone(self)
     monkeypatch.setattr(parallel.InOrder, "alone", spy)
-    monkeypatch.setattr(batch, "HELPERS_PAY", float("inf"))
+    monkeypatch.setattr(blocks, "HELPERS_PAY", float("inf"))
     text = FILES[name]()
     assert _run(text, 2)[0] == _run(text, 1)[0]
     assert len(stopped) == 1 and stopped[0] > 0
+

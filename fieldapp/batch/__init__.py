@@ -13,16 +13,15 @@ from __future__ import annotations
 import csv
 import gc
 import io
-import time
 from itertools import chain, islice
-from operator import itemgetter, methodcaller
+from operator import itemgetter
 from typing import Iterable, Iterator, TextIO
 
 import numpy as np
 
 from ..science import InputError, convert
 from .cells import CONTEXT_COLUMNS, RowError, columns_to_batch, columns_to_batch_in_contexts
-from . import lines, parallel
+from . import blocks, lines, parallel
 from .lines import _write_json, format_number
 
 __all__ = ["INPUT_COLUMNS", "OUTPUT_COLUMNS", "CHUNK_ROWS", "RowError", "columns_to_batch",
@@ -96,13 +95,10 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str, jobs: int = 1)
     write(head.getvalue().encode("utf-8"))
     in_order = parallel.InOrder(_chunk_lines, write, jobs)
     try:
-        total, rest = 0, None
-        if in_order.jobs > 1:           # blocks of lines, read by whoever converts them
-            total, rest = _put_line_blocks(src, in_order, in_cols, pos, out_cols, chunk_rows)
-            reader = None if rest is None else csv.reader(chain(rest, src))
-        if reader is not None:
+        total, rest = blocks.put_line_blocks(src, in_order, (in_cols, pos, out_cols), chunk_rows)
+        if rest is not None:            # a cell may hold a line break: csv.reader from here
             line = 2 + total
-            for chunk in chunks(reader, chunk_rows):
+            for chunk in chunks(csv.reader(chain(rest, src)), chunk_rows):
                 chunk = _even(chunk, len(in_cols))
                 if chunk:
                     in_order.put(chunk, in_cols, pos, out_cols, line)
@@ -126,47 +122,11 @@ def _convert_json(reader, dst, in_cols, pos, out_cols, chunk_rows: int) -> int:
     return line - 2
 
 
-#: Helpers are kept while this process's own chunk takes at least this many
-#: times as long to convert as a block of lines takes to read (the block is
-#: read again, as CSV, by whoever converts it): 20-26 on a file of
-#: all-different readings, 8-11 where readings repeat and each distinct one is
-#: converted once, which one process does faster.
-HELPERS_PAY = 15
-
-#: A line csv.reader reads as no row (skipped, and not counted).
-_BLANK = frozenset(("\n", "\r\n", "\r"))
-
-
-def _put_line_blocks(src, in_order, in_cols, pos, out_cols, chunk_rows: int):
-    """Put the file's lines a block at a time, as text, while every line is
-    one row: a line with an odd number of quotes may open a cell that holds
-    a line break, so from its block on the rows are read here by csv.reader
-    (returned as ``rest``, the lines of that block). Returns (rows put,
-    rest or None)."""
-    total = 0
-    while True:
-        started = time.perf_counter()
-        lines = list(islice(src, chunk_rows))
-        if not lines:
-            return total, None
-        text = "".join(lines)
-        if '"' in text and any(n % 2 for n in map(methodcaller("count", '"'), lines)):
-            return total, lines
-        n = len(lines) - sum(map(_BLANK.__contains__, lines))
-        read_s = time.perf_counter() - started
-        if n:
-            in_order.put(text, in_cols, pos, out_cols, 2 + total)
-        total += n
-        if in_order.own_s is not None and in_order.own_s < HELPERS_PAY * read_s:
-            in_order.alone()            # repeated readings: the rest read here, one process
-            return total, []
-
-
 def _chunk_lines(rows, in_cols, pos: dict, out_cols, line: int) -> bytes:
-    """The CSV lines of a chunk: its rows, or its text (lines each one row)
-    read by csv.reader here."""
+    """The CSV lines of a chunk: its rows, or its text (lines each one row,
+    :func:`blocks.rows_of_text`)."""
     if isinstance(rows, str):
-        rows = _even(list(csv.reader(io.StringIO(rows, newline=""))), len(in_cols))
+        rows = _even(blocks.rows_of_text(rows), len(in_cols))
     return _csv_chunk(rows, in_cols, pos, out_cols, line) if rows else b""
 
 
