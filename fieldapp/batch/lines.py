@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from ..csvtext import QUOTE_OR_BREAK_RE, csv_quoted
+from ..csvtext import csv_quoted
 from ..fmt import number
 from . import assemble
 
@@ -125,8 +125,8 @@ def row_texts(chunk: list, in_cols, pos: dict) -> list[str]:
             texts = None
         if texts is not None:
             blob = ",".join(texts)
-            if blob.count(",") == len(texts) * len(in_cols) - 1 \
-                    and not QUOTE_OR_BREAK_RE.search(blob):
+            if blob.count(",") == len(texts) * len(in_cols) - 1 and '"' not in blob \
+                    and "\n" not in blob and "\r" not in blob:   # str.find: faster than a regex
                 return texts
     by_pos = list(zip(*chunk))      # a repeated name writes its last column's cells, as before
     return list(map(",".join, zip(*(csv_quoted(by_pos[pos[c]]) for c in in_cols))))
