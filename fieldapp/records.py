@@ -40,8 +40,10 @@ FIELD_TEXT_MAX = 200
 def check_number_text(text: str, field: str) -> None:
     """A typed number so small that it would be stored as 0 ("1e-400") is
     refused rather than silently zeroed."""
+    if "e" not in text and "E" not in text:    # no exponent: the usual number, at once
+        return
     mantissa = text.strip().lower().split("e", 1)[0]
-    if "e" in text.lower() and any(c in "123456789" for c in mantissa):
+    if any(c in "123456789" for c in mantissa):
         try:
             x = float(text.strip().replace(",", "."))
         except ValueError:

@@ -380,3 +380,15 @@ def test_a_megabyte_field_is_refused_before_parsing(hostile_app):
         assert r.status_code == 400 and r.get_json()["field"] == field
         assert "at most" in r.get_json()["error"]
         assert snapshot(hostile_app) == before
+
+
+@pytest.mark.parametrize("value", ["1e-400", "1E-400", "2.5e-999", " 1e-400 "])
+def test_a_number_too_small_to_store_is_refused_not_zeroed(client, value):
+    """A typed number that would be stored as 0 is refused with a message
+    naming the field (any case of the exponent), and nothing is saved."""
+    before = client.get("/api/readings").get_json()
+    r = client.post("/api/readings", json={"site": "Farm A", "value": value, "unit": "dS/m",
+                                           "sample": "water"})
+    assert r.status_code == 400
+    assert r.get_json()["field"] == "value" and "too small" in r.get_json()["error"]
+    assert client.get("/api/readings").get_json() == before
