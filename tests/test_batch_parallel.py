@@ -4,6 +4,7 @@ converted on its own (test_batch_repeats._reference); a bad row named as on
 one core, after the same lines; a helper that dies costs nothing."""
 from __future__ import annotations
 
+import concurrent.futures
 import csv
 import io
 import os
@@ -149,14 +150,14 @@ def test_a_helper_that_dies_costs_its_chunk_nothing():
 def test_one_chunk_starts_no_helper(monkeypatch):
     def refused(*a, **k):
         raise AssertionError("a helper was started for a file of one chunk")
-    monkeypatch.setattr(parallel, "ProcessPoolExecutor", refused)
+    monkeypatch.setattr(concurrent.futures, "ProcessPoolExecutor", refused)
     text = _text(_distinct_rows(60))
     assert _run(text, 2)[0] == _run(text, 1)[0]
 
 
 def test_without_fork_everything_is_converted_here(monkeypatch):
     monkeypatch.setattr(parallel, "helpers_possible", lambda: False)
-    monkeypatch.setattr(parallel, "ProcessPoolExecutor", None)
+    monkeypatch.setattr(concurrent.futures, "ProcessPoolExecutor", None)
     assert parallel.InOrder(_lines_with_pid, list.append, jobs=4).jobs == 1
     text = _text(_distinct_rows(300))
     assert _run(text, 2)[0] == _run(text, 1)[0]

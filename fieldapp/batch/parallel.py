@@ -19,25 +19,27 @@ A helper that dies is not waited for: its chunk is converted here instead.
 """
 from __future__ import annotations
 
-import multiprocessing
 import os
 import signal
 import sys
 import time
 from collections import deque
-from concurrent.futures import ProcessPoolExecutor
-from concurrent.futures.process import BrokenProcessPool
 from typing import Callable
 
 
 def helpers_possible() -> bool:
     """Whether helper processes can be forked here (Linux)."""
-    return sys.platform.startswith("linux") and "fork" in multiprocessing.get_all_start_methods()
+    return sys.platform.startswith("linux") and hasattr(os, "fork")
 
 
 def default_jobs() -> int:
     """2 where a second core and forked helpers are there, else 1."""
     return 2 if helpers_possible() and (os.cpu_count() or 1) >= 2 else 1
+
+
+def _broken_pool() -> type:
+    from concurrent.futures.process import BrokenProcessPool
+    return BrokenProcessPool
 
 
 def _quiet_helper() -> None:
@@ -56,7 +58,7 @@ class InOrder:
         self._convert = convert
         self._write = write
         self._jobs = max(1, int(jobs)) if helpers_possible() else 1
-        self._pool: ProcessPoolExecutor | None = None
+        self._pool = None               # a ProcessPoolExecutor, from the first helper
         self._pending: deque = deque()  # [future or None, args, bytes or exception]
         self._mine: list | None = None  # this round's chunk for this process, held
         self._round = 0                 # chunks put in this round
@@ -115,8 +117,10 @@ class InOrder:
             self._pool.shutdown(wait=False, cancel_futures=True)
             self._pool = None
 
-    def _helpers(self) -> ProcessPoolExecutor:
-        if self._pool is None:
+    def _helpers(self):
+        if self._pool is None:          # imported here: 15 ms a file of one chunk need not pay
+            import multiprocessing
+            from concurrent.futures import ProcessPoolExecutor
             self._pool = ProcessPoolExecutor(max_workers=self._jobs - 1,
                                              mp_context=multiprocessing.get_context("fork"),
                                              initializer=_quiet_helper)
@@ -128,7 +132,7 @@ class InOrder:
             if future is not None:
                 try:
                     done = future.result()
-                except BrokenProcessPool:   # the helper died: convert its chunk here
+                except _broken_pool():      # the helper died: convert its chunk here
                     self.close()
                     self._jobs = 1
                     done = self._convert(*args)
