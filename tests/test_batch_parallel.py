@@ -181,3 +181,39 @@ def test_a_fast_file_goes_on_in_one_process_with_the_same_bytes(monkeypatch, nam
     assert _run(text, 2)[0] == _run(text, 1)[0]
     assert len(stopped) == 1 and stopped[0] > 0
 
+
+
+class _StopsDecoding:
+    """The lines of a text that cannot be decoded from line ``bad`` on (as a
+    file read with the wrong encoding stops)."""
+
+    def __init__(self, text: str, bad: int):
+        self._lines = iter(io.StringIO(text, newline=""))
+        self._left = bad
+
+    def __iter__(self):
+        return self
+
+    def __next__(self):
+        self._left -= 1
+        if self._left < 0:
+            raise UnicodeDecodeError("utf-8", b"\xe9", 0, 1, "invalid continuation byte")
+        return next(self._lines)
+
+
+@pytest.mark.parametrize("bad", [40, 100, 140, 210, 290])
+def test_a_file_that_stops_being_utf8_writes_the_same_lines_first(bad):
+    """A line that cannot be decoded: the chunks before its block are
+    written, as one process writes them (the program's own chunk of the
+    round too), then the decoding error is raised."""
+    text = _text(_distinct_rows(400))
+    outs = []
+    for jobs in (1, 2):
+        raw = io.BytesIO()
+        dst = io.TextIOWrapper(raw, encoding="utf-8", newline="")
+        with pytest.raises(UnicodeDecodeError):
+            batch.convert_csv(_StopsDecoding(text, bad), dst, chunk_rows=64, jobs=jobs)
+        dst.flush()
+        outs.append(raw.getvalue())
+    assert outs[0] == outs[1]
+    assert outs[0].count(b"\r\n") == 1 + (bad - 1) // 64 * 64

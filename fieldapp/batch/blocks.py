@@ -37,7 +37,11 @@ def put_line_blocks(src, in_order, shape: tuple, chunk_rows: int) -> tuple[int, 
     total = 0
     while True:
         started = time.perf_counter()
-        lines = list(islice(src, chunk_rows))
+        try:
+            lines = list(islice(src, chunk_rows))
+        except Exception:               # not UTF-8...: the chunks before it are written first,
+            in_order.finish()           # as on one core (a bad row among them comes first)
+            raise
         if not lines:
             return total, None
         text = "".join(lines)
