@@ -217,3 +217,24 @@ def test_a_file_that_stops_being_utf8_writes_the_same_lines_first(bad):
         outs.append(raw.getvalue())
     assert outs[0] == outs[1]
     assert outs[0].count(b"\r\n") == 1 + (bad - 1) // 64 * 64
+
+
+def test_a_helper_killed_between_chunks_costs_nothing():
+    """A helper ended from outside while idle (the system short of memory):
+    the next chunks are converted here, every one once and in order."""
+    out = []
+    in_order = parallel.InOrder(_lines_with_pid, out.append, jobs=2)
+    try:
+        for k in range(4):
+            in_order.put(k)
+        for proc in list(in_order._pool._processes.values()):
+            proc.kill()
+            proc.join()
+        for k in range(4, 11):
+            in_order.put(k)
+        in_order.finish()
+    finally:
+        in_order.close()
+    got = [line.split() for line in b"".join(out).decode().splitlines()]
+    assert [int(k) for k, _ in got] == list(range(11))
+    assert all(pid == str(os.getpid()) for _, pid in got[4:])

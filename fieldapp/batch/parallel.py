@@ -79,7 +79,12 @@ class InOrder:
             self._mine = [None, args, None]
             self._pending.append(self._mine)
         else:
-            self._pending.append([self._helpers().submit(self._convert, *args), args, None])
+            try:
+                future = self._helpers().submit(self._convert, *args)
+            except _broken_pool():      # a helper died between chunks: this one is done here
+                self.close()
+                self._jobs, future = 1, None
+            self._pending.append([future, args, None])
         self._round += 1
         if self._round >= self._jobs:
             self._end_round()
@@ -129,7 +134,9 @@ class InOrder:
     def _drain(self) -> None:
         while self._pending:
             future, args, done = self._pending.popleft()
-            if future is not None:
+            if future is None and done is None:     # a helper's chunk none could take
+                done = self._convert(*args)
+            elif future is not None:
                 try:
                     done = future.result()
                 except _broken_pool():      # the helper died: convert its chunk here
