@@ -67,7 +67,34 @@ FILES = {
                                               + _distinct_rows(300)[200:]),
     "short and long rows": lambda: _text([r[:5] if i % 9 == 0 else r + ["x"] if i % 11 == 0
                                           else r for i, r in enumerate(_distinct_rows(400))]),
+    "a literal quote, then a cell with a line break": lambda: _literal_quote_then_break(255),
+    "a literal quote alone": lambda: _text(_distinct_rows(400)).replace("Bench 4 µ", 'Bench 4"'),
 }
+
+
+def _literal_quote_then_break(at: int) -> str:
+    """A file with a note column whose row ``at`` (255: the last of a block
+    of 64) has a quote inside its unquoted site cell (a literal quote) and a
+    note quoted over two lines: an even number of quotes on a line that is
+    not a row of its own, its rest the first line of the next block."""
+    rows = [r + [f"n{i}"] for i, r in enumerate(_distinct_rows(400))]
+    lines = _text(rows, header=HEADER + ["note"]).split("\r\n")
+    row = lines[at + 1].split(",")
+    assert row[0] == "Farm A" and row[-1] == f"n{at}"
+    row[0], row[-1] = 'Farm"A', f'"n{at}\r\nmore"'
+    lines[at + 1] = ",".join(row)
+    return "\r\n".join(lines)
+
+
+def _reader_only(text: str, chunk_rows: int = 64) -> bytes:
+    """The bytes where csv.reader reads the whole file (no blocks): the
+    reference for the block reading."""
+    real = blocks.put_line_blocks
+    blocks.put_line_blocks = lambda src, in_order, shape, rows: (0, [])
+    try:
+        return _run(text, 1, chunk_rows)[0]
+    finally:
+        blocks.put_line_blocks = real
 
 
 @pytest.mark.parametrize("name", list(FILES))
@@ -77,6 +104,7 @@ def test_helpers_write_what_one_process_writes(name):
     two, err2 = _run(text, 2)
     three, err3 = _run(text, 3, chunk_rows=50)
     assert err1 is err2 is err3 is None
+    assert one == _reader_only(text)
     assert two == one and three == _run(text, 1, chunk_rows=50)[0]
     assert one.count(b"\r\n") >= 300
 
