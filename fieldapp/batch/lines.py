@@ -82,12 +82,15 @@ def _computed_cells(out: dict, out_cols) -> list[list[str]]:
 def _computed_matrices(out: dict, out_cols) -> list:
     """The computed columns as byte matrices (:mod:`.assemble`), the cells
     those of :func:`_computed_cells`."""
-    mats = []
+    mats, made = [], []                 # made: (a number column, its matrix)
     for c in out_cols:
         if c == "flags":
             mats.append(assemble.text_matrix(out[c].codes_column().tolist()))
-        elif out[c].dtype.kind == "f":
-            mats.append(assemble.number_matrix(out[c]))
+        elif out[c].dtype.kind == "f":      # the chosen route's column is often another's
+            same = [m for a, m in made if np.array_equal(a[:16], out[c][:16], equal_nan=True)
+                    and np.array_equal(a, out[c], equal_nan=True)]
+            mats.append(same[0] if same else assemble.number_matrix(out[c]))
+            made.append((out[c], mats[-1]))
         elif out[c].dtype == bool:
             mats.append(assemble.text_matrix(out[c], lambda v: "yes" if v else "no"))
         else:
