@@ -104,11 +104,17 @@ def tds_block(kw: dict, row: dict, estimate: float | None) -> dict:
             "estimate_label": TDS_ESTIMATE_LABEL}
 
 
+#: The batch's columns a result reads unrounded (:func:`result_for_row`, :func:`tds_block`).
+_ROW_COLUMNS = ("crop", "unit_canonical", "unit_note", "unit_kind", "ec25_dS_m", "temp_method",
+                "ece_method", "ece_uncertainty_basis", "ece_note", "ece_out_of_range",
+                "psi_s_method", "soil_class", "water_hazard", "leaching_requirement")
+
+
 def result_for_row(out: dict, i: int, kw: dict, rounded: RoundedColumns | None = None) -> dict:
     """The JSON-ready result of row ``i`` of a converted batch; ``rounded``:
     the batch's :class:`RoundedColumns`, kept by a caller that makes every row's."""
     R = rounded or RoundedColumns(out)
-    row = {k: v[i] for k, v in out.items() if k != "flags"}
+    row = {k: out[k][i] for k in _ROW_COLUMNS if k in out}    # those read below, not all
     row["flags"] = out["flags"].for_row(i)
     crop = row["crop"]
     tds = R("tds_mg_L", i, 4)
