@@ -238,8 +238,8 @@ def _solute_step(b: Batch, c: dict) -> dict:
     fallback = "handbook60"
     use_fb = np.isnan(psi_default) & ~np.isnan(routes[fallback])
     psi_s = np.where(use_fb, routes[fallback], psi_default)
-    psi_method = np.where(np.isnan(psi_s), None,
-                          np.where(use_fb, fallback, osmotic.DEFAULT_ROUTE)).astype(object)
+    routes_named = np.array([None, osmotic.DEFAULT_ROUTE, fallback], dtype=object)
+    psi_method = routes_named[np.where(np.isnan(psi_s), 0, np.where(use_fb, 2, 1))]
     salinity, psi_sea, salt = _sea_salt_step(b, c["ec_dS_m"], basis, t_soln, is_solution)
     ok = ~np.isnan(psi_sea)
     psi_s[ok] = psi_sea[ok]
