@@ -532,3 +532,23 @@ def test_substrate_ranges_name_publication_and_method():
             # and the status too
             short = {"media_1to2": "1:2", "sme": "SME", "pour_through": "pour-through"}[method]
             assert "Leaflet 590" in r.cite and short in r.cite and "unverified" in r.cite
+
+
+@pytest.mark.parametrize("ratio_n, kw", [(2, {}), (5, {}), (1, {"texture": "sand"}),
+                                         (2, {"texture": "loam"}), (1, {"sp_pct": 150})])
+def test_each_rows_note_is_its_own_routes(ratio_n, kw):
+    """A batch mixing rows on a published line and rows below its range
+    (the proportional fallback), or held at the extract's own EC (an SP above
+    100 × N): each row's note names its own route, says so when it is held,
+    and carries the caution; the same note as that reading converted alone."""
+    from fieldapp.science.extracts.routes import ESTIMATE_CAUTION
+    ec = np.geomspace(0.001, 50, 120)
+    pr = ex.estimate_ece(ec, "extract", ratio_n=ratio_n, **kw).per_row()
+    ece = ex.estimate_ece(ec, "extract", ratio_n=ratio_n, **kw).ece_dS_m
+    for i, (method, note) in enumerate(zip(pr["method"], pr["note"])):
+        assert note.endswith(" " + ESTIMATE_CAUTION)
+        assert ("held constant below it" in note) == method.startswith("proportional_below")
+        assert ("Held at the EC of the 1:" in note) == (ece[i] == ec[i] and "sp_pct" in kw)
+        alone = ex.estimate_ece(ec[i:i + 1], "extract", ratio_n=ratio_n, **kw).per_row()
+        assert (alone["method"][0], alone["note"][0]) == (method, note)
+    assert len(set(pr["method"])) > 1 or "sp_pct" in kw

@@ -171,24 +171,24 @@ def _combine(ec, first: _Route, below: np.ndarray, fallback: _Route | None,
     methods = np.empty(shape, dtype=object)
     methods[...] = first.method
     unc = np.full(shape, np.nan if first.unc is None else first.unc)
-    notes = np.empty(shape, dtype=object)
-    notes[...] = first.note
     bases = np.empty(shape, dtype=object)
     bases[...] = first.basis
+    took = np.zeros(shape, dtype=bool)  # rows that took the fallback
     if fallback is not None and below.any():
-        ece[below] = np.asarray(fallback.ece)[below]
-        methods[below] = fallback.method
-        unc[below] = np.nan if fallback.unc is None else fallback.unc
-        notes[below] = fallback.note
-        bases[below] = fallback.basis
+        took = np.asarray(below, dtype=bool)
+        ece[took] = np.asarray(fallback.ece)[took]
+        methods[took] = fallback.method
+        unc[took] = np.nan if fallback.unc is None else fallback.unc
+        bases[took] = fallback.basis
     floor = ~np.isnan(ece) & (ece < ec)
     if floor.any():
         ece[floor] = ec[floor]
-        notes[floor] = notes[floor] + (
-            f" Held at the EC of the 1:{n:g} extract itself: a saturated paste of a "
+    held = (f" Held at the EC of the 1:{n:g} extract itself: a saturated paste of a "
             "mineral soil is never more dilute than the extract.")
-    notes = np.array([f"{t} {ESTIMATE_CAUTION}" for t in notes.ravel()],
-                     dtype=object).reshape(shape)
+    other = fallback.note if fallback is not None else first.note
+    notes = np.array([f"{t} {ESTIMATE_CAUTION}" for t in            # each row's of the four
+                      (first.note, other, first.note + held, other + held)],
+                     dtype=object)[took.astype(np.intp) + 2 * floor]
     main = 0
     if below.any() and below.mean() > 0.5 and fallback is not None:
         main = 1
