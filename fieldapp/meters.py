@@ -10,9 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-import statistics
 
-from . import store
 from .data import load_table
 from .science import InputError, units
 from .fmt import number
@@ -20,6 +18,8 @@ from .forms import parse_number
 from .lazy import Later
 
 temperature = Later("fieldapp.science.temperature")   # its tables are numpy arrays
+store = Later("fieldapp.store")         # the command line reads the defaults below without it
+statistics = Later("statistics")
 
 #: Default tolerance of a calibration check, % of the expected value. Common
 #: practice: pocket meters state about ±2 %; a check off by more than 5 % means
