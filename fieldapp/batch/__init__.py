@@ -97,12 +97,9 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str, jobs: int = 1)
     try:
         total, rest = blocks.put_line_blocks(src, in_order, (in_cols, pos, out_cols), chunk_rows)
         if rest is not None:            # a cell may hold a line break: csv.reader from here
-            line = 2 + total
-            for chunk in chunks(csv.reader(chain(rest, src)), chunk_rows):
-                chunk = _even(chunk, len(in_cols))
-                if chunk:
-                    in_order.put(chunk, in_cols, pos, out_cols, line)
-                line += len(chunk)
+            for chunk, line in _row_chunks(csv.reader(chain(rest, src)), len(in_cols),
+                                           chunk_rows, 2 + total):
+                in_order.put(chunk, in_cols, pos, out_cols, line)
                 total += len(chunk)
         in_order.finish()
     finally:
@@ -110,16 +107,24 @@ def _convert(src: TextIO, dst: TextIO, chunk_rows: int, fmt: str, jobs: int = 1)
     return total
 
 
-def _convert_json(reader, dst, in_cols, pos, out_cols, chunk_rows: int) -> int:
-    line = 2
+def _row_chunks(reader, width: int, chunk_rows: int, line: int) -> Iterator[tuple[list, int]]:
+    """(each chunk of rows, ``width`` cells each, blank ones left out; the
+    line of its first row), counting lines from ``line``."""
     for chunk in chunks(reader, chunk_rows):
-        chunk = _even(chunk, len(in_cols))
+        chunk = _even(chunk, width)
         if chunk:
-            columns = _columns(chunk, pos)
-            out = _converted(columns, len(chunk), line)
-            _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
+            yield chunk, line
         line += len(chunk)
-    return line - 2
+
+
+def _convert_json(reader, dst, in_cols, pos, out_cols, chunk_rows: int) -> int:
+    total = 0
+    for chunk, line in _row_chunks(reader, len(in_cols), chunk_rows, 2):
+        columns = _columns(chunk, pos)
+        out = _converted(columns, len(chunk), line)
+        _write_json(dst, in_cols, columns, out, out_cols, len(chunk))
+        total += len(chunk)
+    return total
 
 
 def _chunk_lines(rows, in_cols, pos: dict, out_cols, line: int) -> bytes:
@@ -206,21 +211,32 @@ def _in_contexts(chunk: list, pos: dict, names: list, line: int) -> dict | None:
         return None
 
 
+def _key(positions: list):
+    """A row's cells at ``positions``, as a tuple."""
+    return itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
+
+
+def _first_seen(keys, n: int, most: int) -> tuple[dict, np.ndarray] | None:
+    """(each distinct key -> the row it first appears on, in that order;
+    each row's index among the distinct keys) for ``n`` rows' ``keys``, or
+    None where there are more than ``most``."""
+    first: dict = {}
+    seen = np.fromiter(map(first.setdefault, keys, range(n)), dtype=np.intp, count=n)
+    if len(first) > most:
+        return None
+    dense = np.empty(n, dtype=np.intp)
+    dense[np.fromiter(first.values(), dtype=np.intp, count=len(first))] = np.arange(len(first))
+    return first, dense[seen]
+
+
 def _distinct(chunk: list, positions: list, most: int) -> tuple[list, np.ndarray] | None:
     """(the distinct tuples of the cells at ``positions``; each row's index
     among them), or None where there are more than ``most``."""
-    key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
-    first: dict = {}                    # each key -> the row it first appears on
-    seen = np.fromiter(map(first.setdefault, map(key, chunk), range(len(chunk))),
-                       dtype=np.intp, count=len(chunk))
-    if len(first) > most:
-        return None
-    dense = np.empty(len(chunk), dtype=np.intp)
-    dense[np.fromiter(first.values(), dtype=np.intp, count=len(first))] = np.arange(len(first))
-    return list(first), dense[seen]
+    found = _first_seen(map(_key(positions), chunk), len(chunk), most)
+    return None if found is None else (list(found[0]), found[1])
 
 
-def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, list] | None:
+def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, np.ndarray] | None:
     """(the distinct tuples of the cells at ``positions``; for each row, the
     index of its own), or None where fewer than half the rows repeat one.
 
@@ -237,16 +253,9 @@ def _distinct_rows(chunk: list, heads: list, positions: list) -> tuple[list, lis
     if len(set(map(itemgetter(positions[0]), sample))) * 4 > len(sample) * 3 \
             or len(set(map(itemgetter(positions[0]), chunk))) * 2 > n:
         return None
-    key = itemgetter(*positions) if len(positions) > 1 else (lambda r: (r[positions[0]],))
-    first: dict = {}                    # each text (or key) -> the row it first appears on
-    seen = list(map(first.setdefault, heads, range(n)))
-    if len(first) * 2 <= n:
-        rows = [key(chunk[i]) for i in first.values()]
-    else:
-        first = {}
-        seen = list(map(first.setdefault, map(key, chunk), range(n)))
-        if len(first) * 2 > n:
-            return None
-        rows = list(first)
-    order = dict(zip(first.values(), range(len(first))))
-    return rows, list(map(order.__getitem__, seen))
+    found = _first_seen(heads, n, n // 2)      # rows of the same text: the same reading
+    if found is None:
+        return _distinct(chunk, positions, n // 2)
+    first, codes = found
+    key = _key(positions)
+    return [key(chunk[i]) for i in first.values()], codes

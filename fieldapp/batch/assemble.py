@@ -22,6 +22,7 @@ import numpy as np
 
 from ..csvtext import csv_quoted
 from ..fmt import number
+from ..science import groups
 
 #: A plain cell is 9 pairs of bytes, NUL where a character is not written
 #: (NULs are dropped when the lines are made, so a cell need not be
@@ -108,16 +109,12 @@ def text_matrix(values, word=None) -> np.ndarray | None:
     into text (``word``; by default empty for None, else ``str``), quoted
     and encoded once. None where a cell holds a NUL of its own (it would be
     dropped with the padding)."""
-    values = values.tolist() if isinstance(values, np.ndarray) else list(values)
-    index = dict.fromkeys(values)
-    for i, k in enumerate(index):
-        index[k] = i
+    codes, distinct = groups.codes(np.asarray(values, dtype=object))
     make = word or (lambda v: "" if v is None else str(v))
-    texts = csv_quoted([make(v) for v in index])
+    texts = csv_quoted([make(v) for v in distinct])
     if any("\0" in t for t in texts):
         return None
-    table = _rows_of(texts)
-    return table[np.fromiter(map(index.__getitem__, values), dtype=np.intp, count=len(values))]
+    return _rows_of(texts)[codes]
 
 
 def _head_rows(heads: list[str]) -> np.ndarray | None:

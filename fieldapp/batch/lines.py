@@ -85,7 +85,7 @@ def _computed_matrices(out: dict, out_cols) -> list:
     mats, made = [], []                 # made: (a number column, its matrix)
     for c in out_cols:
         if c == "flags":
-            mats.append(assemble.text_matrix(out[c].codes_column().tolist()))
+            mats.append(assemble.text_matrix(out[c].codes_column()))
         elif out[c].dtype.kind == "f":      # the chosen route's column is often another's
             same = [m for a, m in made if np.array_equal(a[:16], out[c][:16], equal_nan=True)
                     and np.array_equal(a, out[c], equal_nan=True)]
@@ -98,7 +98,7 @@ def _computed_matrices(out: dict, out_cols) -> list:
     return mats
 
 
-def csv_lines(heads: list, out, out_cols, codes: list | None = None) -> bytes:
+def csv_lines(heads: list, out, out_cols, codes: np.ndarray | None = None) -> bytes:
     """The chunk's rows as CSV lines in UTF-8 (``heads``: each row's input
     cells, from :func:`row_texts`): the same text csv.writer writes row by
     row, the computed cells made a column at a time and the lines assembled

@@ -82,8 +82,8 @@ class InOrder:
             try:
                 future = self._helpers().submit(self._convert, *args)
             except _broken_pool():      # a helper died between chunks: this one is done here
-                self.close()
-                self._jobs, future = 1, None
+                self._helpers_lost()
+                future = None
             self._pending.append([future, args, None])
         self._round += 1
         if self._round >= self._jobs:
@@ -122,6 +122,11 @@ class InOrder:
             self._pool.shutdown(wait=False, cancel_futures=True)
             self._pool = None
 
+    def _helpers_lost(self) -> None:
+        """A helper died: the rest is converted in this process."""
+        self.close()
+        self._jobs = 1
+
     def _helpers(self):
         if self._pool is None:          # imported here: 15 ms a file of one chunk need not pay
             import multiprocessing
@@ -140,8 +145,7 @@ class InOrder:
                 try:
                     done = future.result()
                 except _broken_pool():      # the helper died: convert its chunk here
-                    self.close()
-                    self._jobs = 1
+                    self._helpers_lost()
                     done = self._convert(*args)
             if isinstance(done, Exception):
                 raise done

@@ -15,6 +15,8 @@ from .coded import codes_of
 def codes(col: np.ndarray) -> tuple[np.ndarray, list]:
     """Integer codes for a column (NaN and None are one value) and the value of each code."""
     n = col.shape[0]
+    if n == 0:
+        return np.zeros(0, dtype=np.intp), []
     known = codes_of(col)
     if known is not None:
         return known
