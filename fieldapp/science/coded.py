@@ -34,12 +34,7 @@ def coded(values: list, codes: np.ndarray) -> np.ndarray:
     for v, i in merged.items():
         table[i] = v
     codes = remap[codes] if len(merged) < len(values) else np.asarray(codes, dtype=np.intp)
-    col = table[codes].view(CodedColumn)
-    col.codes = codes
-    col.values = list(merged)
-    col.flags.writeable = False
-    codes.flags.writeable = False
-    return col
+    return _kept(table, codes, list(merged))
 
 
 def coded_table(table: np.ndarray, codes: np.ndarray) -> np.ndarray:
@@ -51,10 +46,13 @@ def coded_table(table: np.ndarray, codes: np.ndarray) -> np.ndarray:
     if table.dtype == object:
         return coded(table.tolist(), codes)
     uniq, inverse = np.unique(table, return_inverse=True)
-    codes = inverse.ravel().astype(np.intp)[codes]
-    col = uniq[codes].view(CodedColumn)
-    col.codes = codes
-    col.values = uniq.tolist()
+    return _kept(uniq, inverse.ravel().astype(np.intp)[codes], uniq.tolist())
+
+
+def _kept(distinct: np.ndarray, codes: np.ndarray, values: list) -> np.ndarray:
+    """The read-only column ``distinct[codes]`` keeping its codes and values."""
+    col = distinct[codes].view(CodedColumn)
+    col.codes, col.values = codes, values
     col.flags.writeable = False
     codes.flags.writeable = False
     return col
