@@ -148,31 +148,31 @@ def _dies_in_a_helper(k: int) -> bytes:
     return f"{k}\n".encode()
 
 
-def test_chunks_come_back_in_order_from_more_than_one_process():
+def _through(convert, chunks: int, between=None) -> str:
+    """The text ``convert`` gave chunks 0..chunks-1 put through an InOrder
+    of 2 processes; ``between(in_order)`` is called after the first four."""
     out = []
-    in_order = parallel.InOrder(_lines_with_pid, out.append, jobs=2)
+    in_order = parallel.InOrder(convert, out.append, jobs=2)
     try:
-        for k in range(9):
+        for k in range(chunks):
+            if k == 4 and between:
+                between(in_order)
             in_order.put(k)
         in_order.finish()
     finally:
         in_order.close()
-    got = [line.split() for line in b"".join(out).decode().splitlines()]
+    return b"".join(out).decode()
+
+
+def test_chunks_come_back_in_order_from_more_than_one_process():
+    got = [line.split() for line in _through(_lines_with_pid, 9).splitlines()]
     assert [int(k) for k, _ in got] == list(range(9))
     assert got[0][1] == str(os.getpid())            # the first chunk: no helper yet
     assert len({pid for _, pid in got}) == 2
 
 
 def test_a_helper_that_dies_costs_its_chunk_nothing():
-    out = []
-    in_order = parallel.InOrder(_dies_in_a_helper, out.append, jobs=2)
-    try:
-        for k in range(7):
-            in_order.put(k)
-        in_order.finish()
-    finally:
-        in_order.close()
-    assert b"".join(out).decode().split() == [str(k) for k in range(7)]
+    assert _through(_dies_in_a_helper, 7).split() == [str(k) for k in range(7)]
 
 
 def test_one_chunk_starts_no_helper(monkeypatch):
@@ -250,19 +250,10 @@ def test_a_file_that_stops_being_utf8_writes_the_same_lines_first(bad):
 def test_a_helper_killed_between_chunks_costs_nothing():
     """A helper ended from outside while idle (the system short of memory):
     the next chunks are converted here, every one once and in order."""
-    out = []
-    in_order = parallel.InOrder(_lines_with_pid, out.append, jobs=2)
-    try:
-        for k in range(4):
-            in_order.put(k)
+    def kill(in_order):
         for proc in list(in_order._pool._processes.values()):
             proc.kill()
             proc.join()
-        for k in range(4, 11):
-            in_order.put(k)
-        in_order.finish()
-    finally:
-        in_order.close()
-    got = [line.split() for line in b"".join(out).decode().splitlines()]
+    got = [line.split() for line in _through(_lines_with_pid, 11, kill).splitlines()]
     assert [int(k) for k, _ in got] == list(range(11))
     assert all(pid == str(os.getpid()) for _, pid in got[4:])
